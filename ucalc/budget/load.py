@@ -1,0 +1,468 @@
+"""Turning a budget file into a validated :class:`~ucalc.budget.definitions.Budget`.
+
+Parse (YAML with locations), validate (pydantic shapes, names, units, correlations) and build (input models,
+compiled model) in one pass that gathers every problem, so ``ucalc check`` can list them all at once. Each
+problem names the file, line, column and the input or model line concerned.
+"""
+
+from __future__ import annotations
+
+import difflib
+import hashlib
+import math
+import re
+from pathlib import Path
+from typing import Any
+
+from pydantic import BaseModel, ValidationError
+
+from .. import expr, units
+from ..errors import BudgetError, BudgetErrors, ExpressionError, Location
+from .definitions import Budget, Coverage, Measurand, Model, ModelLine, Quantity
+from .schema import BudgetSpec, CorrelationSpec, CoverageSpec, MeasurandSpec
+from .yamlio import Document, PathKey, load_yaml, parse_yaml
+
+_LINE = re.compile(r"^(\s*)([A-Za-z][A-Za-z0-9_]*)\s*=(?!=)(.*)$")
+
+
+def load_budget(path: str | Path) -> Budget:
+    """Read, validate and build a budget file; raise :class:`BudgetErrors` listing every problem."""
+    doc = load_yaml(path)
+    budget = build_budget(doc)
+    digest = hashlib.sha256(Path(path).read_bytes()).hexdigest()
+    return _replace(budget, sha256=digest)
+
+
+def load_budget_text(text: str, file: str = "<budget>") -> Budget:
+    """Like :func:`load_budget` for text already in memory (tests, fuzzing, scenarios)."""
+    budget = build_budget(parse_yaml(text, file))
+    return _replace(budget, sha256=hashlib.sha256(text.encode("utf-8")).hexdigest())
+
+
+def _replace(budget: Budget, **changes: Any) -> Budget:
+    import dataclasses
+
+    return dataclasses.replace(budget, **changes)
+
+
+# ---- pydantic errors as located one-line messages ---------------------------------------------------------
+
+
+def _path_text(loc: tuple[Any, ...]) -> str:
+    out = ""
+    for part in loc:
+        out += f"[{part}]" if isinstance(part, int) else (f".{part}" if out else str(part))
+    return out
+
+
+def _rule(err: dict[str, Any], valid: list[str]) -> str:
+    kind = err["type"]
+    ctx = err.get("ctx") or {}
+    got = err.get("input")
+    field = str(err["loc"][-1]) if err["loc"] else ""
+    if kind == "missing":
+        return f"missing key '{field}'"
+    if kind == "extra_forbidden":
+        close = difflib.get_close_matches(field, valid, n=1)
+        hint = f"; did you mean '{close[0]}'?" if close else (f"; valid keys: {', '.join(valid)}" if valid else "")
+        return f"unknown key '{field}'{hint}"
+    if kind == "greater_than":
+        return f"must be greater than {ctx.get('gt')} (got {got!r})"
+    if kind == "greater_than_equal":
+        return f"must be at least {ctx.get('ge')} (got {got!r})"
+    if kind == "less_than":
+        return f"must be less than {ctx.get('lt')} (got {got!r})"
+    if kind == "less_than_equal":
+        return f"must be at most {ctx.get('le')} (got {got!r})"
+    if kind in ("float_parsing", "float_type", "int_parsing", "int_type", "int_from_float"):
+        return f"must be a number (got {got!r})"
+    if kind == "finite_number":
+        return "must be a finite number"
+    if kind == "literal_error":
+        return f"must be one of {ctx.get('expected')} (got {got!r})"
+    if kind in ("string_type",):
+        return f"must be text (got {got!r})"
+    if kind in ("dict_type", "model_type", "model_attributes_type"):
+        return "must be a mapping of keys to values"
+    if kind == "list_type":
+        return "must be a list"
+    if kind in ("bool_type", "bool_parsing"):
+        return f"must be true or false (got {got!r})"
+    if kind in ("too_short", "too_long"):
+        return str(err["msg"]).replace("List", "list").replace("Dictionary", "mapping")
+    msg = str(err["msg"])
+    return msg.removeprefix("Value error, ").removeprefix("Assertion failed, ")
+
+
+def _fields(model: type[BaseModel], loc: tuple[Any, ...]) -> list[str]:
+    """Valid keys of the (nested) pydantic model a location points into, for 'did you mean' hints."""
+    current: Any = model
+    for part in loc[:-1]:
+        if isinstance(part, int):
+            continue
+        field = getattr(current, "model_fields", {}).get(part)
+        if field is None:
+            return []
+        ann = field.annotation
+        args = getattr(ann, "__args__", ())
+        candidates = [a for a in (ann, *args) if isinstance(a, type) and issubclass(a, BaseModel)]
+        if not candidates:
+            return []
+        current = candidates[0]
+    return list(getattr(current, "model_fields", {}))
+
+
+def validation_errors(
+    exc: ValidationError, model: type[BaseModel], doc: Document, prefix: PathKey, subject: str
+) -> list[BudgetError]:
+    out = []
+    for err in exc.errors():
+        loc = tuple(p for p in err["loc"] if isinstance(p, str | int))
+        rule = _rule(err, _fields(model, loc))
+        where = _path_text(loc)
+        key_error = err["type"] == "extra_forbidden"
+        target = (*prefix, *loc) if err["type"] != "missing" else (*prefix, *loc[:-1])
+        text = f"{where}: {rule}" if where and err["type"] not in ("missing", "extra_forbidden") else rule
+        out.append(BudgetError(text, location=doc.locate(target, key=key_error), subject=subject))
+    return out
+
+
+# ---- building --------------------------------------------------------------------------------------------
+
+
+def build_budget(doc: Document) -> Budget:
+    """Validate and build a parsed document; raise :class:`BudgetErrors` with every problem found."""
+    errors: list[BudgetError] = []
+    data = doc.data
+    if not isinstance(data, dict):
+        raise BudgetErrors([BudgetError("a budget must be a YAML mapping with keys 'ucalc', 'title', "
+                                        "'measurand', 'model' and 'inputs'", location=Location(doc.file, 1, 1))])
+
+    top = dict(data)
+    raw_inputs = top.get("inputs")
+    if isinstance(raw_inputs, dict):
+        top["inputs"] = {k: (v if isinstance(v, dict) else {}) for k, v in raw_inputs.items()}
+    spec: BudgetSpec | None = None
+    try:
+        spec = BudgetSpec.model_validate(top)
+    except ValidationError as exc:
+        for e in validation_errors(exc, BudgetSpec, doc, (), ""):
+            errors.append(_subject_from_rule(e))
+
+    quantities, correlations_extra = _build_inputs(raw_inputs, doc, errors)
+
+    measurand = _part(top, "measurand", MeasurandSpec, doc, spec)
+    coverage = _part(top, "coverage", CoverageSpec, doc, spec) or CoverageSpec(probability=0.95)
+    model: Model | None = None
+    if isinstance(top.get("model"), str) and isinstance(measurand, MeasurandSpec):
+        model = _build_model(top["model"], measurand, quantities, doc, errors)
+
+    correlations = dict(correlations_extra)
+    raw_corr = top.get("correlations")
+    if isinstance(raw_corr, list):
+        correlations.update(_build_correlations(raw_corr, quantities, doc, errors))
+
+    if model is not None and not errors:
+        _check_at_estimate(model, quantities, doc, errors)
+
+    if errors or spec is None or model is None or not isinstance(measurand, MeasurandSpec):
+        if not errors:  # pragma: no cover - every failed part records an error
+            errors.append(BudgetError("budget is incomplete", location=Location(doc.file, 1, 1)))
+        raise BudgetErrors(errors)
+
+    warnings = tuple(
+        f"input '{name}' is not used by the model"
+        for name in spec.inputs if name not in model.inputs
+    )
+    return Budget(
+        title=spec.title,
+        measurand=Measurand(measurand.symbol, measurand.unit or "", measurand.description or ""),
+        model=model,
+        quantities=quantities,
+        correlations=correlations,
+        coverage=Coverage(coverage.probability, coverage.k, coverage.dof_rounding),
+        source=doc.file,
+        warnings=warnings,
+    )
+
+
+def _subject_from_rule(e: BudgetError) -> BudgetError:
+    """Give top-level schema errors a subject such as "input 'V'" or 'measurand'."""
+    rule = e.rule
+    m = re.match(r"^inputs\.([A-Za-z0-9_]+)(?:[.\[]|: )", rule)
+    if m:
+        rest = rule[len(f"inputs.{m.group(1)}"):].lstrip(".: ")
+        return BudgetError(rest, location=e.location, subject=f"input '{m.group(1)}'")
+    m = re.match(r"^([a-z_]+)(\[\d+\])?[.:]", rule)
+    if m:
+        return BudgetError(rule[len(m.group(0)):].strip(), location=e.location, subject=m.group(0)[:-1])
+    return e
+
+
+def _part(top: dict[str, Any], key: str, model: type[BaseModel], doc: Document, spec: BudgetSpec | None) -> Any:
+    if spec is not None:
+        return getattr(spec, key)
+    raw = top.get(key)
+    if raw is None:
+        return None
+    try:
+        return model.model_validate(raw)
+    except ValidationError:
+        return None  # already reported by the top-level validation
+
+
+def _build_inputs(
+    raw_inputs: Any, doc: Document, errors: list[BudgetError]
+) -> tuple[dict[str, Quantity], dict[tuple[str, str], float]]:
+    from ..inputs.base import get_model, model_key
+
+    quantities: dict[str, Quantity] = {}
+    correlations: dict[tuple[str, str], float] = {}
+    if not isinstance(raw_inputs, dict):
+        return quantities, correlations
+    for name, raw in raw_inputs.items():
+        subject = f"input '{name}'"
+        path: PathKey = ("inputs", name)
+        if not isinstance(raw, dict):
+            errors.append(BudgetError("must be a mapping (value, unit, components, ...)",
+                                      location=doc.locate(path), subject=subject))
+            continue
+        key = model_key(raw)
+        module = get_model(key)
+        try:
+            spec = module.Spec.model_validate(raw)
+        except ValidationError as exc:
+            errors.extend(validation_errors(exc, module.Spec, doc, path, subject))
+            continue
+        unit_text = getattr(spec, "unit", None)
+        try:
+            unit = units.parse_unit(unit_text)
+            if units.is_offset(unit):
+                raise ExpressionError(
+                    f"unit '{unit_text}' has an offset zero and cannot enter a product; "
+                    "give temperature differences in K"
+                )
+        except ExpressionError as exc:
+            errors.append(BudgetError(exc.rule, location=doc.locate((*path, "unit")), subject=subject))
+            continue
+        try:
+            derived = module.derive(name, spec, doc.locate(path, key=True))
+        except (ValueError, ArithmeticError) as exc:
+            location = getattr(exc, "location", None) or doc.locate(path, key=True)
+            errors.append(BudgetError(str(exc), location=location, subject=subject))
+            continue
+        for q in derived.quantities:
+            if q.name in quantities:
+                errors.append(BudgetError(f"quantity '{q.name}' is defined twice",
+                                          location=doc.locate(path, key=True), subject=subject))
+            if not math.isfinite(q.value) or not all(
+                math.isfinite(c.standard_uncertainty) for c in q.components
+            ):
+                errors.append(BudgetError("value or uncertainty is not a finite number",
+                                          location=doc.locate(path), subject=subject))
+            quantities[q.name] = q
+        for a, b, r in derived.correlations:
+            correlations[(a, b)] = r
+    return quantities, correlations
+
+
+def _model_positions(doc: Document, text: str) -> list[tuple[int, int]]:
+    """File (line, column) where each line of the model text starts."""
+    loc = doc.locate(("model",))
+    source = doc.text.splitlines()
+    lines = text.split("\n")
+    first = source[loc.line - 1][loc.column - 1:loc.column] if 0 < loc.line <= len(source) else ""
+    positions = []
+    if first in ("|", ">"):
+        for i, _ in enumerate(lines):
+            number = loc.line + 1 + i
+            raw = source[number - 1] if number <= len(source) else ""
+            positions.append((number, len(raw) - len(raw.lstrip(" ")) + 1))
+    else:
+        quoted = 1 if first in ("'", '"') else 0
+        positions = [(loc.line + i, (loc.column + quoted) if i == 0 else 1) for i in range(len(lines))]
+    return positions
+
+
+def _build_model(
+    text: str, measurand: MeasurandSpec, quantities: dict[str, Quantity], doc: Document,
+    errors: list[BudgetError],
+) -> Model | None:
+    positions = _model_positions(doc, text)
+    known_units: dict[str, Any] = {}
+    for name, q in quantities.items():
+        try:
+            known_units[name] = units.parse_unit(q.unit)
+        except ExpressionError:
+            pass
+    lines: list[ModelLine] = []
+    defined_later = set()
+    parsed: list[tuple[str, str, Location, int]] = []
+    for index, raw in enumerate(text.split("\n")):
+        body = raw.split("#", 1)[0]
+        if not body.strip():
+            continue
+        line_no, col0 = positions[index] if index < len(positions) else (0, 0)
+        m = _LINE.match(body)
+        where = Location(doc.file, line_no, col0)
+        if not m:
+            errors.append(BudgetError("must read 'name = expression'", location=where,
+                                      subject=f"model line {index + 1}"))
+            continue
+        name = m.group(2)
+        expr_col = col0 + len(body) - len(m.group(3))
+        parsed.append((name, m.group(3), where, expr_col))
+        defined_later.add(name)
+    if not parsed:
+        if not any(e.subject.startswith("model") for e in errors):
+            errors.append(BudgetError("the model has no line 'name = expression'",
+                                      location=doc.locate(("model",)), subject="model"))
+        return None
+    ok = True
+    seen_lines: set[str] = set()
+    for name, body, where, expr_col in parsed:
+        subject = f"model line '{name}'"
+        if name in quantities or name in seen_lines:
+            errors.append(BudgetError(f"'{name}' is defined twice (as an input or an earlier model line)",
+                                      location=where, subject=subject))
+            ok = False
+            continue
+        try:
+            tree = expr.parse(body)
+        except ExpressionError as exc:
+            errors.append(BudgetError(exc.rule, subject=subject,
+                                      location=Location(doc.file, where.line, expr_col + max(exc.column, 1) - 1)))
+            ok = False
+            seen_lines.add(name)
+            continue
+        bad = False
+        for ref, col in expr.names(tree):
+            if ref in known_units:
+                continue
+            at = Location(doc.file, where.line, expr_col + col - 1)
+            if ref in defined_later:
+                rule = f"'{ref}' is used before the line that defines it (or defines itself)"
+            else:
+                pool = list(quantities) + list(seen_lines)
+                close = difflib.get_close_matches(ref, pool, n=1)
+                rule = f"unknown name '{ref}'" + (f"; did you mean '{close[0]}'?" if close else "")
+            errors.append(BudgetError(rule, location=at, subject=subject))
+            bad = True
+        seen_lines.add(name)
+        if bad:
+            ok = False
+            continue
+        try:
+            tree, unit = units.normalise(tree, known_units)
+        except ExpressionError as exc:
+            col = expr_col + max(exc.column, 1) - 1
+            errors.append(BudgetError(f"unit mismatch: {exc.rule}" if "must" not in exc.rule else exc.rule,
+                                      location=Location(doc.file, where.line, col), subject=subject))
+            ok = False
+            continue
+        known_units[name] = unit
+        lines.append(ModelLine(name, body.strip(), tree, unit, where))
+    if not ok or not lines:
+        return None
+    last = lines[-1]
+    if last.name != measurand.symbol:
+        errors.append(BudgetError(
+            f"the last model line defines '{last.name}' but the measurand is '{measurand.symbol}'",
+            location=last.location, subject=f"model line '{last.name}'"))
+        return None
+    try:
+        target = units.parse_unit(measurand.unit)
+    except ExpressionError as exc:
+        errors.append(BudgetError(exc.rule, location=doc.locate(("measurand", "unit")), subject="measurand"))
+        return None
+    if not units.same_dimension(last.unit, target):
+        errors.append(BudgetError(
+            f"unit mismatch: the model gives '{units.pretty(last.unit) or 'dimensionless'}', which cannot be "
+            f"expressed in the measurand's unit '{measurand.unit or 'dimensionless'}'",
+            location=last.location, subject=f"model line '{last.name}'"))
+        return None
+    scale = units.factor(last.unit, target)
+    definitions: dict[str, expr.Node] = {}
+    memo: dict[int, expr.Node] = {}
+    for line in lines:
+        definitions[line.name] = expr.substitute(line.tree, definitions, memo)
+    used = {n for n, _ in expr.names(definitions[last.name])}
+    inputs = tuple(n for n in quantities if n in used)
+    return Model(tuple(lines), inputs, scale, definitions[last.name])
+
+
+def _build_correlations(
+    raw: list[Any], quantities: dict[str, Quantity], doc: Document, errors: list[BudgetError]
+) -> dict[tuple[str, str], float]:
+    import numpy as np
+
+    out: dict[tuple[str, str], float] = {}
+    for i, item in enumerate(raw):
+        path: PathKey = ("correlations", i)
+        subject = f"correlation {i + 1}"
+        try:
+            spec = CorrelationSpec.model_validate(item)
+        except ValidationError:
+            continue  # reported by the top-level validation
+        a, b = spec.between
+        bad = [n for n in (a, b) if n not in quantities]
+        if bad:
+            errors.append(BudgetError(f"unknown input '{bad[0]}'", location=doc.locate((*path, "between")),
+                                      subject=subject))
+            continue
+        if a == b:
+            errors.append(BudgetError(f"an input cannot be correlated with itself ('{a}')",
+                                      location=doc.locate((*path, "between")), subject=subject))
+            continue
+        pair = (a, b) if a < b else (b, a)
+        if pair in out and out[pair] != spec.r:
+            errors.append(BudgetError(f"'{a}' and '{b}' are given two different coefficients",
+                                      location=doc.locate(path), subject=subject))
+            continue
+        out[pair] = spec.r
+    names = sorted({n for pair, r in out.items() if r != 0.0 for n in pair})
+    if names:
+        index = {n: i for i, n in enumerate(names)}
+        matrix = np.eye(len(names))
+        for (a, b), r in out.items():
+            if a in index and b in index:
+                matrix[index[a], index[b]] = matrix[index[b], index[a]] = r
+        smallest = float(np.linalg.eigvalsh(matrix).min())
+        if smallest < -1e-10:
+            errors.append(BudgetError(
+                f"the correlation matrix of {', '.join(names)} is not positive semi-definite "
+                f"(smallest eigenvalue {smallest:.3g}); the coefficients contradict each other",
+                location=doc.locate(("correlations",)), subject="correlations"))
+    return out
+
+
+def _check_at_estimate(
+    model: Model, quantities: dict[str, Quantity], doc: Document, errors: list[BudgetError]
+) -> None:
+    env: dict[str, Any] = {n: quantities[n].value for n in model.inputs}
+    for line in model.lines:
+        subject = f"model line '{line.name}'"
+        try:
+            value = expr.compile_tree(line.tree, expr.FLOAT_BACKEND)(env)
+        except (ArithmeticError, ValueError) as exc:
+            reason = "division by zero" if isinstance(exc, ZeroDivisionError) else (
+                "overflow" if isinstance(exc, OverflowError) else "outside a function's domain")
+            errors.append(BudgetError(f"the value is not finite at the estimates ({reason})",
+                                      location=line.location, subject=subject))
+            return
+        if not math.isfinite(value):
+            errors.append(BudgetError("the value is not finite at the estimates",
+                                      location=line.location, subject=subject))
+            return
+        env[line.name] = value
+    last = model.lines[-1]
+    for name in model.inputs:
+        try:
+            c = model.evaluate_tree(model.derivative(name), env)
+            finite = math.isfinite(c)
+        except (ArithmeticError, ValueError):
+            finite = False
+        if not finite:
+            errors.append(BudgetError(
+                f"the sensitivity coefficient for '{name}' is not finite at the estimates",
+                location=last.location, subject=f"model line '{last.name}'"))

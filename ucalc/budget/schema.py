@@ -1,0 +1,77 @@
+"""The top-level shape of a budget file, format version 1, as pydantic models.
+
+Inputs are validated by their own input model (``ucalc.inputs``); here only their names are checked.
+Documented in docs/budget-format.md.
+"""
+
+from __future__ import annotations
+
+import re
+from typing import Any, Literal
+
+from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
+
+NAME = re.compile(r"^[A-Za-z][A-Za-z0-9_]*$")
+FORMAT_VERSION = 1
+
+
+def check_name(name: str) -> str:
+    if not NAME.match(name) or "__" in name:
+        raise ValueError(
+            f"'{name}' is not a valid name: use a letter followed by letters, digits or single underscores"
+        )
+    return name
+
+
+class _Strict(BaseModel):
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+
+
+class MeasurandSpec(_Strict):
+    symbol: str
+    unit: str | None = Field(default=None, max_length=100)
+    description: str | None = None
+
+    _symbol = field_validator("symbol")(lambda cls, v: check_name(v))
+
+
+class CoverageSpec(_Strict):
+    probability: float | None = Field(default=None, gt=0, lt=1)
+    k: float | None = Field(default=None, gt=0)
+    dof_rounding: Literal["down", "none"] = "down"
+
+    @model_validator(mode="after")
+    def _one(self) -> CoverageSpec:
+        if (self.probability is None) == (self.k is None):
+            raise ValueError("give exactly one of 'probability' (e.g. 0.95) or 'k' (e.g. 2)")
+        return self
+
+
+class CorrelationSpec(_Strict):
+    between: list[str] = Field(min_length=2, max_length=2)
+    r: float = Field(ge=-1, le=1)
+
+
+class BudgetSpec(_Strict):
+    ucalc: int
+    title: str = Field(min_length=1)
+    measurand: MeasurandSpec
+    model: str = Field(min_length=1)
+    coverage: CoverageSpec = Field(default_factory=lambda: CoverageSpec(probability=0.95))
+    inputs: dict[str, dict[str, Any]] = Field(min_length=1)
+    correlations: list[CorrelationSpec] = Field(default_factory=list)
+    description: str | None = None
+
+    @field_validator("ucalc")
+    @classmethod
+    def _version(cls, v: int) -> int:
+        if v != FORMAT_VERSION:
+            raise ValueError(f"budget format version {v} is not supported; this ucalc reads version 1")
+        return v
+
+    @field_validator("inputs")
+    @classmethod
+    def _names(cls, v: dict[str, Any]) -> dict[str, Any]:
+        for name in v:
+            check_name(name)
+        return v

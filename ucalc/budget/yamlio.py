@@ -1,0 +1,156 @@
+"""Reading a budget's YAML safely, keeping the line and column of every key and value.
+
+ruamel.yaml's round-trip loader builds only plain mappings, sequences and scalars (no object-building tags), and
+refuses duplicate keys. We turn its output into plain Python data and a table of locations, refuse tags, and
+count nodes so that an alias bomb stops early instead of expanding.
+"""
+
+from __future__ import annotations
+
+import io
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from ..errors import BudgetError, Location
+
+MAX_BYTES = 5_000_000
+MAX_NODES = 200_000
+
+PathKey = tuple[str | int, ...]
+
+
+@dataclass
+class Document:
+    """Plain data of a YAML file plus where each piece stands in it."""
+
+    file: str
+    data: Any
+    text: str
+    keys: dict[PathKey, tuple[int, int]] = field(default_factory=dict)
+    values: dict[PathKey, tuple[int, int]] = field(default_factory=dict)
+
+    def locate(self, path: PathKey, *, key: bool = False) -> Location:
+        """Location of the value (or key) at ``path``; falls back to the nearest enclosing place."""
+        table = self.keys if key else self.values
+        probe = tuple(path)
+        while probe:
+            for t in (table, self.keys, self.values):
+                if probe in t:
+                    line, col = t[probe]
+                    return Location(self.file, line, col)
+            probe = probe[:-1]
+        return Location(self.file, 1, 1)
+
+
+def read_text(path: str | Path, *, what: str = "budget") -> str:
+    """Read a UTF-8 text file with clear errors for size, encoding and a byte-order mark."""
+    p = Path(path)
+    name = str(path)
+    try:
+        size = p.stat().st_size
+    except OSError as exc:
+        raise BudgetError(f"cannot read {what} file ({exc.strerror or exc})", location=Location(name)) from None
+    if not p.is_file():
+        raise BudgetError(f"{what} path is not a file", location=Location(name))
+    if size > MAX_BYTES:
+        raise BudgetError(
+            f"{what} file is {size / 1e6:.1f} MB; the limit is {MAX_BYTES / 1e6:.0f} MB", location=Location(name)
+        )
+    raw = p.read_bytes()
+    if raw.startswith(b"\xef\xbb\xbf"):
+        raw = raw[3:]  # a UTF-8 byte-order mark carries no meaning; editors on some systems add it
+    try:
+        return raw.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        line = raw[: exc.start].count(b"\n") + 1
+        return _fail(f"file is not valid UTF-8 (byte 0x{raw[exc.start]:02x} at offset {exc.start})", name, line)
+
+
+def _fail(rule: str, file: str, line: int = 0, col: int = 0) -> Any:
+    raise BudgetError(rule, location=Location(file, line, col))
+
+
+def load_yaml(path: str | Path) -> Document:
+    """Load a budget file into a :class:`Document`, or raise :class:`BudgetError` with a location."""
+    text = read_text(path)
+    return parse_yaml(text, str(path))
+
+
+def parse_yaml(text: str, file: str) -> Document:
+    from ruamel.yaml import YAML
+    from ruamel.yaml.error import MarkedYAMLError, YAMLError
+
+    for number, line in enumerate(text.splitlines(), 1):
+        stripped = line.lstrip(" ")
+        if stripped.startswith("\t"):
+            _fail("a tab is used for indentation; YAML needs spaces", file, number, len(line) - len(stripped) + 1)
+    yaml = YAML(typ="rt")
+    try:
+        raw = yaml.load(io.StringIO(text))
+    except MarkedYAMLError as exc:
+        mark = exc.problem_mark or exc.context_mark
+        problem = (exc.problem or exc.context or "YAML error").strip()
+        if "duplicate key" in problem:
+            problem = problem.split(" with value")[0]
+        line, col = (mark.line + 1, mark.column + 1) if mark else (0, 0)
+        _fail(f"YAML: {problem}", file, line, col)
+    except YAMLError as exc:
+        _fail(f"YAML: {str(exc).splitlines()[0] if str(exc) else type(exc).__name__}", file)
+    except RecursionError:
+        _fail("YAML nested too deeply", file)
+    doc = Document(file=file, data=None, text=text)
+    counter = [0]
+    doc.data = _plain(raw, (), doc, counter, 0)
+    return doc
+
+
+def _plain(node: Any, path: PathKey, doc: Document, counter: list[int], depth: int) -> Any:
+    from ruamel.yaml.comments import CommentedMap, CommentedSeq, TaggedScalar
+
+    counter[0] += 1
+    if counter[0] > MAX_NODES or depth > 64:
+        loc = doc.locate(path)
+        why = "nested too deeply" if depth > 64 else f"has more than {MAX_NODES} nodes (alias expansion?)"
+        _fail(f"YAML document {why}", doc.file, loc.line, loc.column)
+    tag = getattr(node, "tag", None)
+    tag_value = getattr(tag, "value", None) if tag is not None else None
+    if isinstance(node, TaggedScalar) or (tag_value and not str(tag_value).startswith("tag:yaml.org,2002:")):
+        loc = doc.locate(path)
+        _fail(f"YAML tag '{tag_value}' is not allowed in a budget", doc.file, loc.line, loc.column)
+    if isinstance(node, CommentedMap):
+        out: dict[str, Any] = {}
+        for key in node:
+            kline, kcol = node.lc.key(key)
+            vline, vcol = node.lc.value(key)
+            if not isinstance(key, str | int | float) or isinstance(key, bool):
+                _fail(f"mapping key {key!r} is not text", doc.file, kline + 1, kcol + 1)
+            skey = str(key)
+            child = (*path, skey)
+            doc.keys[child] = (kline + 1, kcol + 1)
+            doc.values[child] = (vline + 1, vcol + 1)
+            out[skey] = _plain(node[key], child, doc, counter, depth + 1)
+        return out
+    if isinstance(node, CommentedSeq):
+        items = []
+        for i, item in enumerate(node):
+            line, col = node.lc.item(i)
+            child = (*path, i)
+            doc.values[child] = (line + 1, col + 1)
+            items.append(_plain(item, child, doc, counter, depth + 1))
+        return items
+    if isinstance(node, bool) or node is None:
+        return node
+    if isinstance(node, int):
+        return int(node)
+    if isinstance(node, float):
+        value = float(node)
+        if not math.isfinite(value):
+            loc = doc.locate(path)
+            _fail(f"non-finite number {value} is not allowed", doc.file, loc.line, loc.column)
+        return value
+    if isinstance(node, str):
+        return str(node)
+    # dates and other scalar types carry no meaning in a budget; keep them as text for the schema to judge
+    return str(node)

@@ -1,0 +1,157 @@
+"""The law of propagation of uncertainty (JCGM 100:2008, clause 5) and the expanded uncertainty (clause 6, G).
+
+u_c^2 = sum c_i^2 u_i^2 + 2 sum_{i<j} c_i c_j r_ij u_i u_j (5.1.2, 5.2.2), with exact sensitivity coefficients
+c_i = df/dx_i (5.1.3) from symbolic differentiation; optional second-order terms for uncorrelated inputs
+(5.1.2 note); effective degrees of freedom by Welch-Satterthwaite (G.4.1); k = t_p(nu_eff) (G.3, G.6.4).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Any
+
+from ..budget.definitions import Budget
+from ..errors import ComputationError
+
+
+@dataclass(frozen=True)
+class Contribution:
+    """One input's row of the budget table; output quantities are in the measurand's unit."""
+
+    input: str
+    value: float
+    unit: str
+    standard_uncertainty: float
+    dof: float
+    sensitivity: float
+    contribution: float
+    index: float
+    kind: str
+    shape: str
+
+
+@dataclass(frozen=True)
+class GumResult:
+    """Result of the GUM propagation; ``contributions`` are sorted by decreasing contribution."""
+
+    measurand: str
+    unit: str
+    value: float
+    standard_uncertainty: float
+    effective_dof: float
+    coverage_factor: float
+    coverage_probability: float | None
+    expanded_uncertainty: float
+    contributions: tuple[Contribution, ...]
+    second_order: bool = False
+    second_order_variance: float = 0.0
+    correlation_variance: float = 0.0
+    notes: tuple[str, ...] = ()
+
+    @property
+    def relative_expanded_uncertainty(self) -> float:
+        return self.expanded_uncertainty / abs(self.value) if self.value else math.inf
+
+
+def coverage_factor(probability: float, dof: float) -> float:
+    """t_p(nu): the two-sided coverage factor of the t-distribution (JCGM 100 G.3.4, Table G.2)."""
+    from scipy import stats
+
+    if math.isinf(dof):
+        return float(stats.norm.ppf(0.5 + probability / 2.0))
+    return float(stats.t.ppf(0.5 + probability / 2.0, dof))
+
+
+def propagate(budget: Budget, *, second_order: bool = False) -> GumResult:
+    """Propagate a budget's uncertainties to the measurand by JCGM 100 clause 5."""
+    model = budget.model
+    names = model.inputs
+    env: dict[str, Any] = {n: budget.quantities[n].value for n in names}
+    y = float(model.function("float")(env))
+    q = [budget.quantities[n] for n in names]
+    u = [x.standard_uncertainty for x in q]
+    c = [float(model.evaluate_tree(model.derivative(n), env)) for n in names]
+    terms = [ci * ui for ci, ui in zip(c, u, strict=True)]
+    first = sum(t * t for t in terms)
+    cross = 0.0
+    for i in range(len(names)):
+        for j in range(i + 1, len(names)):
+            r = budget.correlation(names[i], names[j])
+            if r:
+                cross += 2.0 * terms[i] * terms[j] * r
+    second = 0.0
+    notes: list[str] = []
+    if second_order:
+        if any(budget.correlation(a, b) for a in names for b in names if a != b):
+            raise ComputationError("second-order terms (JCGM 100 5.1.2 note) need uncorrelated inputs",
+                                   subject="--second-order")
+        second = _second_order(budget, names, env, u, c)
+    variance = first + cross + second
+    if variance < 0:
+        if variance > -1e-12 * (first + 1e-300):
+            variance = 0.0
+        else:
+            raise ComputationError(f"combined variance is negative ({variance:.3g}); check the correlations")
+    uc = math.sqrt(variance)
+    nu = _effective_dof(first + cross, terms, [x.dof for x in q])
+    p = budget.coverage.probability
+    if uc == 0.0:
+        notes.append("every input is exact or has zero sensitivity: the combined uncertainty is zero")
+    if budget.coverage.k is not None:
+        k, p_out = budget.coverage.k, None
+    else:
+        assert p is not None
+        nu_used = math.floor(nu) if (budget.coverage.dof_rounding == "down" and not math.isinf(nu)) else nu
+        if nu_used < 1:
+            raise ComputationError(
+                f"effective degrees of freedom {nu:.3g} are below 1, so no coverage factor follows from the "
+                "probability; collect more data or state a fixed 'k' under 'coverage'", subject="coverage")
+        k, p_out = coverage_factor(p, nu_used), p
+    contributions = []
+    for x, ci, ui, t in zip(q, c, u, terms, strict=True):
+        contributions.append(Contribution(
+            input=x.name, value=x.value, unit=x.unit, standard_uncertainty=ui, dof=x.dof, sensitivity=ci,
+            contribution=abs(t), index=(t * t / variance) if variance > 0 else 0.0, kind=x.kind, shape=x.shape,
+        ))
+    contributions.sort(key=lambda row: (-row.contribution, row.input))
+    if cross:
+        notes.append(f"correlation terms add {cross / variance:+.1%} of u_c^2" if variance else "")
+    if second:
+        notes.append(f"second-order terms add {second / variance:.1%} of u_c^2")
+    return GumResult(
+        measurand=budget.measurand.symbol, unit=budget.measurand.unit, value=y, standard_uncertainty=uc,
+        effective_dof=nu, coverage_factor=k, coverage_probability=p_out, expanded_uncertainty=k * uc,
+        contributions=tuple(contributions), second_order=second_order, second_order_variance=second,
+        correlation_variance=cross, notes=tuple(n for n in notes if n),
+    )
+
+
+def _effective_dof(variance: float, terms: list[float], dofs: list[float]) -> float:
+    """Welch-Satterthwaite: nu_eff = u_c^4 / sum (c_i u_i)^4 / nu_i (JCGM 100 G.4.1, eq. G.2b).
+
+    Second-order terms are left out of u_c here: they carry no degrees of freedom of their own.
+    """
+    denom = sum(t**4 / nu for t, nu in zip(terms, dofs, strict=True) if not math.isinf(nu) and t != 0.0)
+    if denom == 0.0 or variance <= 0.0:
+        return math.inf
+    return variance * variance / denom
+
+
+def _second_order(budget: Budget, names: tuple[str, ...], env: dict[str, Any], u: list[float],
+                  c: list[float]) -> float:
+    """sum_i sum_j [ (d2f/dxi dxj)^2 / 2 + df/dxi d3f/(dxi dxj^2) ] u_i^2 u_j^2 (JCGM 100 5.1.2 note)."""
+    model = budget.model
+    total = 0.0
+    for i, a in enumerate(names):
+        if u[i] == 0.0:
+            continue
+        for j, b in enumerate(names):
+            if u[j] == 0.0:
+                continue
+            d2 = float(model.evaluate_tree(model.derivative(a, b), env))
+            d3 = float(model.evaluate_tree(model.derivative(a, b, b), env))
+            total += (0.5 * d2 * d2 + c[i] * d3) * u[i] ** 2 * u[j] ** 2
+    if not math.isfinite(total):
+        raise ComputationError("second-order terms are not finite at the estimates", subject="--second-order")
+    return total

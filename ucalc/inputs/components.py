@@ -1,0 +1,84 @@
+"""Uncertainty components as a budget states them, and their standard uncertainties.
+
+A component gives exactly one of ``standard`` (u itself), ``expanded`` with ``k`` (u = U/k, JCGM 100 4.3.3), or
+``half_width`` with a distribution (u = a/divisor, JCGM 100 4.3.7 and 4.3.9), optionally with ``dof`` and with
+``relative: true`` (the number is a fraction of the quantity's value).
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Literal
+
+from pydantic import BaseModel, ConfigDict, Field, model_validator
+
+from ..budget.definitions import Component
+from ..distributions import DIVISORS, Distribution
+
+
+class ComponentSpec(BaseModel):
+    """One uncertainty component of an input."""
+
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+
+    name: str = Field(min_length=1, max_length=200)
+    standard: float | None = Field(default=None, gt=0)
+    expanded: float | None = Field(default=None, gt=0)
+    k: float | None = Field(default=None, gt=0)
+    half_width: float | None = Field(default=None, gt=0)
+    distribution: Literal["normal", "rectangular", "triangular", "arcsine"] | None = None
+    dof: float | None = Field(default=None, ge=1)
+    relative: bool = False
+    type: Literal["A", "B"] | None = None
+    note: str | None = None
+
+    @model_validator(mode="after")
+    def _one_form(self) -> ComponentSpec:
+        given = [k for k in ("standard", "expanded", "half_width") if getattr(self, k) is not None]
+        if len(given) != 1:
+            raise ValueError(
+                "give exactly one of 'standard', 'expanded' (with 'k') or 'half_width' (with 'distribution')"
+                + (f"; got {', '.join(given)}" if given else "")
+            )
+        if self.expanded is not None and self.k is None:
+            raise ValueError("'expanded' needs its coverage factor 'k'")
+        if self.k is not None and self.expanded is None:
+            raise ValueError("'k' belongs with 'expanded'")
+        if self.half_width is not None and self.distribution not in DIVISORS:
+            raise ValueError("'half_width' needs 'distribution': rectangular, triangular or arcsine")
+        if self.half_width is None and self.distribution not in (None, "normal"):
+            raise ValueError(f"distribution '{self.distribution}' goes with 'half_width'")
+        return self
+
+
+def _fmt(x: float) -> str:
+    return f"{x:.6g}"
+
+
+def build_component(spec: ComponentSpec, value: float, unit: str) -> Component:
+    """Turn a component spec into a :class:`Component` for a quantity of the given value and unit."""
+    dof = math.inf if spec.dof is None else float(spec.dof)
+    scale = abs(value) if spec.relative else 1.0
+    where = f" (relative, x {_fmt(abs(value))})" if spec.relative else ""
+    unit_text = "" if spec.relative or not unit else f" {unit}"
+    if spec.standard is not None:
+        u = spec.standard * scale
+        dist = Distribution("normal" if math.isinf(dof) else "t", u, dof)
+        origin = f"standard uncertainty {_fmt(spec.standard)}{unit_text}{where}"
+        kind = spec.type or ("A" if not math.isinf(dof) else "B")
+    elif spec.expanded is not None:
+        assert spec.k is not None
+        u = spec.expanded * scale / spec.k
+        dist = Distribution("normal" if math.isinf(dof) else "t", u, dof)
+        origin = f"expanded {_fmt(spec.expanded)}{unit_text}{where}, k = {_fmt(spec.k)}, divisor {_fmt(spec.k)}"
+        kind = spec.type or "B"
+    else:
+        assert spec.half_width is not None and spec.distribution is not None
+        a = spec.half_width * scale
+        dist = Distribution(spec.distribution, a, dof)
+        divisor = {"rectangular": "sqrt(3)", "triangular": "sqrt(6)", "arcsine": "sqrt(2)"}[spec.distribution]
+        origin = f"half-width {_fmt(spec.half_width)}{unit_text}{where}, {spec.distribution}, divisor {divisor}"
+        kind = spec.type or "B"
+    if spec.note:
+        origin += f"; {spec.note}"
+    return Component(spec.name, dist, kind, origin)

@@ -1,0 +1,66 @@
+"""JSON output: unrounded numbers under stable keys (documented in docs/json-output.md).
+
+Infinite degrees of freedom are written as null; output quantities are in the measurand's unit.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from typing import Any
+
+from .. import __version__
+from ..budget.definitions import Budget, Quantity
+from ..engines.gum import GumResult
+
+
+def _dof(nu: float) -> float | None:
+    return None if math.isinf(nu) else nu
+
+
+def quantity_json(q: Quantity) -> dict[str, Any]:
+    return {
+        "value": q.value,
+        "unit": q.unit,
+        "standard_uncertainty": q.standard_uncertainty,
+        "dof": _dof(q.dof),
+        "model": q.model,
+        "description": q.description,
+        "components": [
+            {"name": c.name, "type": c.kind, "distribution": c.distribution.shape,
+             "divisor": c.distribution.divisor, "standard_uncertainty": c.standard_uncertainty,
+             "dof": _dof(c.dof), "origin": c.origin}
+            for c in q.components
+        ],
+        "working": list(q.working),
+    }
+
+
+def gum_json(budget: Budget, result: GumResult) -> dict[str, Any]:
+    return {
+        "ucalc_version": __version__,
+        "title": budget.title,
+        "source": budget.source,
+        "sha256": budget.sha256,
+        "measurand": result.measurand,
+        "unit": result.unit,
+        "value": result.value,
+        "standard_uncertainty": result.standard_uncertainty,
+        "effective_dof": _dof(result.effective_dof),
+        "coverage_factor": result.coverage_factor,
+        "coverage_probability": result.coverage_probability,
+        "expanded_uncertainty": result.expanded_uncertainty,
+        "second_order": result.second_order,
+        "contributions": [
+            {"input": c.input, "value": c.value, "unit": c.unit, "standard_uncertainty": c.standard_uncertainty,
+             "dof": _dof(c.dof), "sensitivity": c.sensitivity, "contribution": c.contribution, "index": c.index}
+            for c in result.contributions
+        ],
+        "inputs": {name: quantity_json(q) for name, q in budget.quantities.items()},
+        "notes": list(result.notes),
+        "warnings": list(budget.warnings),
+    }
+
+
+def dumps(data: dict[str, Any]) -> str:
+    return json.dumps(data, indent=2, ensure_ascii=False, allow_nan=False)

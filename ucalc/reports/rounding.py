@@ -1,0 +1,45 @@
+"""Rounding of a result and its uncertainty for statements (JCGM 100 7.2.6).
+
+The uncertainty is rounded to a number of significant digits (two by default) and the estimate to the same
+decimal place. Rounding is half away from zero on the decimal text of the float, so 0.0995 becomes 0.10 (and the
+estimate then carries two decimals) and 9.96 becomes 10. Where U is zero or not finite the estimate is shown
+with six significant digits.
+"""
+
+from __future__ import annotations
+
+import math
+from decimal import ROUND_HALF_UP, Decimal
+
+
+def round_uncertainty(u: float, digits: int = 2) -> Decimal:
+    """``u`` rounded to ``digits`` significant digits, as a Decimal whose exponent gives the decimal place."""
+    if digits < 1:
+        raise ValueError("digits must be at least 1")
+    d = Decimal(repr(float(abs(u))))
+    exponent = d.adjusted() - digits + 1
+    rounded = d.quantize(Decimal(1).scaleb(exponent), rounding=ROUND_HALF_UP)
+    if rounded.adjusted() > d.adjusted():  # 9.96 -> 10.0: one more digit than asked; drop it
+        rounded = rounded.quantize(Decimal(1).scaleb(exponent + 1), rounding=ROUND_HALF_UP)
+    return rounded
+
+
+def round_pair(value: float, u: float, digits: int = 2) -> tuple[str, str]:
+    """(estimate, uncertainty) as text, the estimate rounded to the uncertainty's last decimal place."""
+    if not math.isfinite(u) or u == 0.0:
+        return f"{value:.6g}", f"{u:g}"
+    ru = round_uncertainty(u, digits)
+    place = Decimal(1).scaleb(ru.as_tuple().exponent)  # type: ignore[arg-type]
+    rv = Decimal(repr(float(value))).quantize(place, rounding=ROUND_HALF_UP)
+    if rv == 0:
+        rv = abs(rv)
+    return _plain(rv), _plain(ru)
+
+
+def _plain(d: Decimal) -> str:
+    """Decimal without exponent notation (1E+1 -> 10)."""
+    exponent = d.as_tuple().exponent
+    assert isinstance(exponent, int)
+    if exponent > 0:
+        return f"{d:.0f}"
+    return f"{d:f}"

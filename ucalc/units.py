@@ -1,0 +1,129 @@
+"""Units of inputs and measurand, checked and converted with pint.
+
+Each model tree is walked once with the units of its names: sums and differences must share a dimension,
+function arguments must be dimensionless, exponents of dimensioned bases must be constants. Where operands carry
+different but compatible units (mg + g) a scale factor is written into the tree, so the compiled model is plain
+arithmetic on the numbers as the budget gives them, and the result is scaled to the measurand's unit.
+"""
+
+from __future__ import annotations
+
+import re
+from functools import lru_cache
+from typing import Any
+
+from . import expr
+from .errors import ExpressionError, UnitError
+
+_TRANSCENDENTAL = ("exp", "log", "log10", "sin", "cos", "tan")
+
+
+@lru_cache(maxsize=1)
+def registry() -> Any:
+    """The one pint registry (created on first use; pint is slow to import)."""
+    import pint
+
+    reg = pint.UnitRegistry(autoconvert_offset_to_baseunit=False)
+    return reg
+
+
+def parse_unit(text: str | None) -> Any:
+    """Parse a unit string ('' or None is dimensionless). Raises ExpressionError for unknown units."""
+    reg = registry()
+    if text is None or not str(text).strip():
+        return reg.dimensionless
+    cleaned = str(text).strip().replace("µ", "u").replace("μ", "u")
+    if "__" in cleaned or len(cleaned) > 100:
+        raise ExpressionError(f"unit '{text}' is not a valid unit")
+    try:
+        unit = reg.parse_units(cleaned)
+    except Exception as exc:  # pint raises several unrelated types for bad text
+        raise ExpressionError(f"unit '{text}' is not known ({type(exc).__name__})") from None
+    return unit
+
+
+def is_offset(unit: Any) -> bool:
+    """True for units such as degC whose zero is offset (they cannot be multiplied)."""
+    q = 1 * unit
+    return not q._is_multiplicative
+
+
+def factor(source: Any, target: Any) -> float:
+    """Number by which a magnitude in ``source`` is multiplied to express it in ``target``."""
+    reg = registry()
+    return float(reg.Quantity(1.0, source).to(target).magnitude)
+
+
+def same_dimension(a: Any, b: Any) -> bool:
+    reg = registry()
+    return reg.Quantity(1.0, a).dimensionality == reg.Quantity(1.0, b).dimensionality
+
+
+def pretty(unit: Any) -> str:
+    """Short human form of a unit, e.g. 'mg/L', 'µg/L' ('' when dimensionless)."""
+    if unit == registry().dimensionless:
+        return ""
+    text = f"{unit:~C}"
+    text = re.sub(r"(?<![A-Za-z])([munpkdcµ]?)l(?![A-Za-z])", r"\1L", text)  # litre as L, the lab habit
+    return re.sub(r"(?<![A-Za-z])u(?=[a-zA-Z])", "µ", text)
+
+
+def normalise(node: expr.Node, units: dict[str, Any]) -> tuple[expr.Node, Any]:
+    """Check a tree's dimensions; return (tree with conversion factors, unit of its value)."""
+    reg = registry()
+    dimensionless = reg.dimensionless
+
+    def scaled(n: expr.Node, f: float) -> expr.Node:
+        return n if f == 1.0 else expr.mul(expr.Num(f), n)
+
+    def to_plain(n: expr.Node, u: Any, what: str, col: int) -> expr.Node:
+        if not same_dimension(u, dimensionless):
+            raise UnitError(f"{what} must be dimensionless (got '{pretty(u) or u}')", col)
+        return scaled(n, factor(u, dimensionless))
+
+    def walk(n: expr.Node) -> tuple[expr.Node, Any]:
+        if isinstance(n, expr.Num):
+            return n, dimensionless
+        if isinstance(n, expr.Var):
+            return n, units[n.name]
+        if isinstance(n, expr.Neg):
+            a, u = walk(n.arg)
+            return expr.Neg(a), u
+        if isinstance(n, expr.Call):
+            a, u = walk(n.arg)
+            if n.fn in _TRANSCENDENTAL:
+                return expr.Call(n.fn, to_plain(a, u, f"the argument of {n.fn}()", n.column), n.column), dimensionless
+            if n.fn == "sqrt":
+                return expr.Call("sqrt", a, n.column), u**0.5
+            return expr.Call(n.fn, a, n.column), u
+        if isinstance(n, expr.Bin):
+            a, ua = walk(n.left)
+            b, ub = walk(n.right)
+            if n.op in "+-":
+                if not same_dimension(ua, ub):
+                    raise UnitError(
+                        f"cannot {'add' if n.op == '+' else 'subtract'} '{pretty(ub) or 'dimensionless'}' "
+                        f"{'to' if n.op == '+' else 'from'} '{pretty(ua) or 'dimensionless'}'",
+                        n.column,
+                    )
+                return expr.Bin(n.op, a, scaled(b, factor(ub, ua)), n.column), ua
+            if n.op == "*":
+                return expr.Bin("*", a, b, n.column), ua * ub
+            if n.op == "/":
+                return expr.Bin("/", a, b, n.column), ua / ub
+            # power
+            b = to_plain(b, ub, "an exponent", n.column)
+            if same_dimension(ua, dimensionless):
+                return expr.Bin("**", to_plain(a, ua, "a base", n.column), b, n.column), dimensionless
+            exponent = expr.constant(b)
+            if exponent is None:
+                raise UnitError("a quantity with a unit may only be raised to a constant number", n.column)
+            return expr.Bin("**", a, b, n.column), ua**exponent
+        raise TypeError(n)  # pragma: no cover
+
+    try:
+        return walk(node)
+    except RecursionError:
+        raise ExpressionError("expression nested too deeply") from None
+    except OverflowError:
+        raise UnitError("unit exponent out of range") from None
