@@ -7,7 +7,7 @@ Heavy libraries are imported inside the commands so that ``ucalc --help`` starts
 from __future__ import annotations
 
 import sys
-from enum import Enum
+from enum import StrEnum
 from pathlib import Path
 from typing import TYPE_CHECKING, Annotated
 
@@ -22,7 +22,7 @@ app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_
 EXIT_BAD_INPUT = 2
 
 
-class Format(str, Enum):
+class Format(StrEnum):
     text = "text"
     json = "json"
 

@@ -27,7 +27,10 @@ _LINE = re.compile(r"^(\s*)([A-Za-z][A-Za-z0-9_]*)\s*=(?!=)(.*)$")
 
 def load_budget(path: str | Path) -> Budget:
     """Read, validate and build a budget file; raise :class:`BudgetErrors` listing every problem."""
-    doc = load_yaml(path)
+    try:
+        doc = load_yaml(path)
+    except BudgetError as exc:
+        raise BudgetErrors([exc]) from None
     budget = build_budget(doc)
     digest = hashlib.sha256(Path(path).read_bytes()).hexdigest()
     return _replace(budget, sha256=digest)
@@ -35,7 +38,11 @@ def load_budget(path: str | Path) -> Budget:
 
 def load_budget_text(text: str, file: str = "<budget>") -> Budget:
     """Like :func:`load_budget` for text already in memory (tests, fuzzing, scenarios)."""
-    budget = build_budget(parse_yaml(text, file))
+    try:
+        doc = parse_yaml(text, file)
+    except BudgetError as exc:
+        raise BudgetErrors([exc]) from None
+    budget = build_budget(doc)
     return _replace(budget, sha256=hashlib.sha256(text.encode("utf-8")).hexdigest())
 
 
@@ -66,14 +73,11 @@ def _rule(err: dict[str, Any], valid: list[str]) -> str:
         close = difflib.get_close_matches(field, valid, n=1)
         hint = f"; did you mean '{close[0]}'?" if close else (f"; valid keys: {', '.join(valid)}" if valid else "")
         return f"unknown key '{field}'{hint}"
-    if kind == "greater_than":
-        return f"must be greater than {ctx.get('gt')} (got {got!r})"
-    if kind == "greater_than_equal":
-        return f"must be at least {ctx.get('ge')} (got {got!r})"
-    if kind == "less_than":
-        return f"must be less than {ctx.get('lt')} (got {got!r})"
-    if kind == "less_than_equal":
-        return f"must be at most {ctx.get('le')} (got {got!r})"
+    bound = {"greater_than": ("gt", "greater than"), "greater_than_equal": ("ge", "at least"),
+             "less_than": ("lt", "less than"), "less_than_equal": ("le", "at most")}
+    if kind in bound:
+        key, words = bound[kind]
+        return f"must be {words} {ctx.get(key):g} (got {got!r})"
     if kind in ("float_parsing", "float_type", "int_parsing", "int_type", "int_from_float"):
         return f"must be a number (got {got!r})"
     if kind == "finite_number":
@@ -149,13 +153,13 @@ def build_budget(doc: Document) -> Budget:
         for e in validation_errors(exc, BudgetSpec, doc, (), ""):
             errors.append(_subject_from_rule(e))
 
-    quantities, correlations_extra = _build_inputs(raw_inputs, doc, errors)
+    quantities, correlations_extra, failed = _build_inputs(raw_inputs, doc, errors)
 
     measurand = _part(top, "measurand", MeasurandSpec, doc, spec)
     coverage = _part(top, "coverage", CoverageSpec, doc, spec) or CoverageSpec(probability=0.95)
     model: Model | None = None
     if isinstance(top.get("model"), str) and isinstance(measurand, MeasurandSpec):
-        model = _build_model(top["model"], measurand, quantities, doc, errors)
+        model = _build_model(top["model"], measurand, quantities, failed, doc, errors)
 
     correlations = dict(correlations_extra)
     raw_corr = top.get("correlations")
@@ -193,9 +197,13 @@ def _subject_from_rule(e: BudgetError) -> BudgetError:
     if m:
         rest = rule[len(f"inputs.{m.group(1)}"):].lstrip(".: ")
         return BudgetError(rest, location=e.location, subject=f"input '{m.group(1)}'")
-    m = re.match(r"^([a-z_]+)(\[\d+\])?[.:]", rule)
+    m = re.match(r"^correlations\[(\d+)\][.:]", rule)
     if m:
-        return BudgetError(rule[len(m.group(0)):].strip(), location=e.location, subject=m.group(0)[:-1])
+        return BudgetError(rule[len(m.group(0)):].strip(), location=e.location,
+                           subject=f"correlation {int(m.group(1)) + 1}")
+    m = re.match(r"^([a-z_]+)[.:]", rule)
+    if m:
+        return BudgetError(rule[len(m.group(0)):].strip(), location=e.location, subject=m.group(1))
     return e
 
 
@@ -213,57 +221,66 @@ def _part(top: dict[str, Any], key: str, model: type[BaseModel], doc: Document, 
 
 def _build_inputs(
     raw_inputs: Any, doc: Document, errors: list[BudgetError]
-) -> tuple[dict[str, Quantity], dict[tuple[str, str], float]]:
+) -> tuple[dict[str, Quantity], dict[tuple[str, str], float], set[str]]:
+    """Build every input; also return the names of inputs that failed (so the model does not report them)."""
     from ..inputs.base import get_model, model_key
 
     quantities: dict[str, Quantity] = {}
     correlations: dict[tuple[str, str], float] = {}
+    failed: set[str] = set()
     if not isinstance(raw_inputs, dict):
-        return quantities, correlations
+        return quantities, correlations, failed
     for name, raw in raw_inputs.items():
-        subject = f"input '{name}'"
-        path: PathKey = ("inputs", name)
-        if not isinstance(raw, dict):
-            errors.append(BudgetError("must be a mapping (value, unit, components, ...)",
+        before = len(errors)
+        _build_input(name, raw, doc, errors, quantities, correlations)
+        if len(errors) > before:
+            failed.add(name)
+    return quantities, correlations, failed
+
+
+def _build_input(name: str, raw: Any, doc: Document, errors: list[BudgetError], quantities: dict[str, Quantity],
+                 correlations: dict[tuple[str, str], float]) -> None:
+    """Validate one input with its input model and add what it derives to ``quantities``."""
+    from ..inputs.base import get_model, model_key
+
+    subject = f"input '{name}'"
+    path: PathKey = ("inputs", name)
+    if not isinstance(raw, dict):
+        errors.append(BudgetError("must be a mapping (value, unit, components, ...)",
+                                  location=doc.locate(path), subject=subject))
+        return
+    module = get_model(model_key(raw))
+    try:
+        spec = module.Spec.model_validate(raw)
+    except ValidationError as exc:
+        errors.extend(validation_errors(exc, module.Spec, doc, path, subject))
+        return
+    unit_text = getattr(spec, "unit", None)
+    try:
+        unit = units.parse_unit(unit_text)
+        if units.is_offset(unit):
+            raise ExpressionError(f"unit '{unit_text}' has an offset zero and cannot enter a product; "
+                                  "give temperature differences in K")
+    except ExpressionError as exc:
+        errors.append(BudgetError(exc.rule, location=doc.locate((*path, "unit")), subject=subject))
+        return
+    try:
+        derived = module.derive(name, spec, doc.locate(path, key=True))
+    except (ValueError, ArithmeticError) as exc:
+        location = getattr(exc, "location", None) or doc.locate(path, key=True)
+        errors.append(BudgetError(str(exc), location=location, subject=subject))
+        return
+    for q in derived.quantities:
+        if q.name in quantities:
+            errors.append(BudgetError(f"quantity '{q.name}' is defined twice",
+                                      location=doc.locate(path, key=True), subject=subject))
+        finite = math.isfinite(q.value) and all(math.isfinite(c.standard_uncertainty) for c in q.components)
+        if not finite:
+            errors.append(BudgetError("value or uncertainty is not a finite number",
                                       location=doc.locate(path), subject=subject))
-            continue
-        key = model_key(raw)
-        module = get_model(key)
-        try:
-            spec = module.Spec.model_validate(raw)
-        except ValidationError as exc:
-            errors.extend(validation_errors(exc, module.Spec, doc, path, subject))
-            continue
-        unit_text = getattr(spec, "unit", None)
-        try:
-            unit = units.parse_unit(unit_text)
-            if units.is_offset(unit):
-                raise ExpressionError(
-                    f"unit '{unit_text}' has an offset zero and cannot enter a product; "
-                    "give temperature differences in K"
-                )
-        except ExpressionError as exc:
-            errors.append(BudgetError(exc.rule, location=doc.locate((*path, "unit")), subject=subject))
-            continue
-        try:
-            derived = module.derive(name, spec, doc.locate(path, key=True))
-        except (ValueError, ArithmeticError) as exc:
-            location = getattr(exc, "location", None) or doc.locate(path, key=True)
-            errors.append(BudgetError(str(exc), location=location, subject=subject))
-            continue
-        for q in derived.quantities:
-            if q.name in quantities:
-                errors.append(BudgetError(f"quantity '{q.name}' is defined twice",
-                                          location=doc.locate(path, key=True), subject=subject))
-            if not math.isfinite(q.value) or not all(
-                math.isfinite(c.standard_uncertainty) for c in q.components
-            ):
-                errors.append(BudgetError("value or uncertainty is not a finite number",
-                                          location=doc.locate(path), subject=subject))
-            quantities[q.name] = q
-        for a, b, r in derived.correlations:
-            correlations[(a, b)] = r
-    return quantities, correlations
+        quantities[q.name] = q
+    for a, b, r in derived.correlations:
+        correlations[(a, b)] = r
 
 
 def _model_positions(doc: Document, text: str) -> list[tuple[int, int]]:
@@ -285,9 +302,10 @@ def _model_positions(doc: Document, text: str) -> list[tuple[int, int]]:
 
 
 def _build_model(
-    text: str, measurand: MeasurandSpec, quantities: dict[str, Quantity], doc: Document,
+    text: str, measurand: MeasurandSpec, quantities: dict[str, Quantity], failed: set[str], doc: Document,
     errors: list[BudgetError],
 ) -> Model | None:
+    """Parse, check and compile the model lines; names of ``failed`` inputs are not reported again."""
     positions = _model_positions(doc, text)
     known_units: dict[str, Any] = {}
     for name, q in quantities.items():
@@ -339,6 +357,9 @@ def _build_model(
         for ref, col in expr.names(tree):
             if ref in known_units:
                 continue
+            if ref in failed or ref.split(".")[0] in failed:
+                bad = True
+                continue
             at = Location(doc.file, where.line, expr_col + col - 1)
             if ref in defined_later:
                 rule = f"'{ref}' is used before the line that defines it (or defines itself)"
@@ -350,6 +371,7 @@ def _build_model(
             bad = True
         seen_lines.add(name)
         if bad:
+            failed.add(name)
             ok = False
             continue
         try:
@@ -405,10 +427,10 @@ def _build_correlations(
         except ValidationError:
             continue  # reported by the top-level validation
         a, b = spec.between
-        bad = [n for n in (a, b) if n not in quantities]
+        bad = [i for i, n in enumerate((a, b)) if n not in quantities]
         if bad:
-            errors.append(BudgetError(f"unknown input '{bad[0]}'", location=doc.locate((*path, "between")),
-                                      subject=subject))
+            errors.append(BudgetError(f"unknown input '{(a, b)[bad[0]]}'",
+                                      location=doc.locate((*path, "between", bad[0])), subject=subject))
             continue
         if a == b:
             errors.append(BudgetError(f"an input cannot be correlated with itself ('{a}')",
@@ -432,7 +454,7 @@ def _build_correlations(
             errors.append(BudgetError(
                 f"the correlation matrix of {', '.join(names)} is not positive semi-definite "
                 f"(smallest eigenvalue {smallest:.3g}); the coefficients contradict each other",
-                location=doc.locate(("correlations",)), subject="correlations"))
+                location=doc.locate(("correlations",), key=True), subject="correlations"))
     return out
 
 

@@ -17,6 +17,7 @@ from ..errors import BudgetError, Location
 
 MAX_BYTES = 5_000_000
 MAX_NODES = 200_000
+_PLAIN_TAGS = {f"tag:yaml.org,2002:{t}" for t in ("str", "int", "float", "bool", "null", "map", "seq")}
 
 PathKey = tuple[str | int, ...]
 
@@ -116,14 +117,17 @@ def _plain(node: Any, path: PathKey, doc: Document, counter: list[int], depth: i
         _fail(f"YAML document {why}", doc.file, loc.line, loc.column)
     tag = getattr(node, "tag", None)
     tag_value = getattr(tag, "value", None) if tag is not None else None
-    if isinstance(node, TaggedScalar) or (tag_value and not str(tag_value).startswith("tag:yaml.org,2002:")):
+    if (tag_value and tag_value not in _PLAIN_TAGS) or isinstance(node, bytes | set):
         loc = doc.locate(path)
-        _fail(f"YAML tag '{tag_value}' is not allowed in a budget", doc.file, loc.line, loc.column)
+        shown = str(tag_value or "!!binary").replace("tag:yaml.org,2002:", "!!")
+        _fail(f"YAML tag '{shown}' is not allowed in a budget", doc.file, loc.line, loc.column)
+    if isinstance(node, TaggedScalar):
+        return str(node.value)
     if isinstance(node, CommentedMap):
         out: dict[str, Any] = {}
         for key in node:
-            kline, kcol = node.lc.key(key)
-            vline, vcol = node.lc.value(key)
+            kline, kcol = node.lc.key(key) or (-1, -1)
+            vline, vcol = node.lc.value(key) or (kline, kcol)
             if not isinstance(key, str | int | float) or isinstance(key, bool):
                 _fail(f"mapping key {key!r} is not text", doc.file, kline + 1, kcol + 1)
             skey = str(key)
@@ -135,7 +139,7 @@ def _plain(node: Any, path: PathKey, doc: Document, counter: list[int], depth: i
     if isinstance(node, CommentedSeq):
         items = []
         for i, item in enumerate(node):
-            line, col = node.lc.item(i)
+            line, col = node.lc.item(i) or (-1, -1)
             child = (*path, i)
             doc.values[child] = (line + 1, col + 1)
             items.append(_plain(item, child, doc, counter, depth + 1))

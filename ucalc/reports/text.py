@@ -39,7 +39,7 @@ def render_gum(console: Console, budget: Budget, result: GumResult) -> None:
         console.print(escape(f"  {line.name} = {line.text}"))
     table = Table(title=None, show_lines=False, header_style="bold")
     for col, justify in [("input", "left"), ("estimate", "right"), ("unit", "left"), ("u", "right"),
-                         ("type", "left"), ("dof", "right"), ("c_i", "right"), (f"|c_i|·u [{mu}]", "right"),
+                         ("type", "left"), ("dof", "right"), ("c_i", "right"), (escape(f"|c_i|·u [{mu}]"), "right"),
                          ("index %", "right")]:
         table.add_column(col, justify=justify)  # type: ignore[arg-type]
     for row in result.contributions:

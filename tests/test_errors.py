@@ -1,0 +1,119 @@
+"""Every budget problem is one located line; these pin the exact messages (file:line:col: subject: rule)."""
+
+from __future__ import annotations
+
+import pytest
+
+from ucalc.budget.load import load_budget_text
+from ucalc.errors import BudgetErrors
+
+GOOD = """\
+ucalc: 1
+title: t
+measurand: {symbol: c, unit: mg/L}
+model: |
+  k = m / V
+  c = k * P
+inputs:
+  m:
+    value: 100.28
+    unit: mg
+    components:
+      - {name: balance, expanded: 0.1, k: 2}
+  P:
+    value: 0.9999
+    components: [{name: purity, half_width: 0.0001, distribution: rectangular}]
+  V:
+    value: 100
+    unit: mL
+    components:
+      - {name: flask, half_width: 0.1, distribution: triangular}
+"""
+
+
+def errors_of(text: str) -> list[str]:
+    with pytest.raises(BudgetErrors) as info:
+        load_budget_text(text, "b.yaml")
+    return [e.message for e in info.value.errors]
+
+
+def test_good_budget_loads() -> None:
+    budget = load_budget_text(GOOD, "b.yaml")
+    assert budget.model.inputs == ("m", "P", "V")
+    assert [line.name for line in budget.model.lines] == ["k", "c"]
+
+
+@pytest.mark.parametrize(
+    ("old", "new", "expected"),
+    [
+        ("half_width: 0.1, distribution: triangular", "half_width: -0.1, distribution: triangular",
+         "b.yaml:20:35: input 'V': components[0].half_width: must be greater than 0 (got -0.1)"),
+        ("expanded: 0.1, k: 2", "expanded: 0.1",
+         "b.yaml:12:9: input 'm': components[0]: 'expanded' needs its coverage factor 'k'"),
+        ("expanded: 0.1, k: 2", "expanded: 0.1, k: 2, standard: 0.05",
+         "b.yaml:12:9: input 'm': components[0]: give exactly one of 'standard', 'expanded' (with 'k') or "
+         "'half_width' (with 'distribution'); got standard, expanded"),
+        ("distribution: rectangular", "distribution: uniform",
+         "b.yaml:15:67: input 'P': components[0].distribution: must be one of 'normal', 'rectangular', "
+         "'triangular' or 'arcsine' (got 'uniform')"),
+        ("  k = m / V", "  k = m / VV",
+         "b.yaml:5:11: model line 'k': unknown name 'VV'; did you mean 'V'?"),
+        ("  k = m / V\n  c = k * P", "  c = k * P\n  k = m / V",
+         "b.yaml:5:7: model line 'c': 'k' is used before the line that defines it (or defines itself)"),
+        ("  k = m / V", "  m = m / V",
+         "b.yaml:5:3: model line 'm': 'm' is defined twice (as an input or an earlier model line)"),
+        ("    unit: mL", "    unit: flasks",
+         "b.yaml:18:11: input 'V': unit 'flasks' is not known (UndefinedUnitError)"),
+        ("    value: 100\n", "    value: 0\n",
+         "b.yaml:5:3: model line 'k': the value is not finite at the estimates (division by zero)"),
+        ("  c = k * P", "  c = k * sqrt(P - 0.9999)",
+         "b.yaml:6:3: model line 'c': the sensitivity coefficient for 'P' is not finite at the estimates"),
+        ("    value: 100.28", "    valeu: 100.28",
+         "b.yaml:9:5: input 'm': unknown key 'valeu'; did you mean 'value'?"),
+        ("ucalc: 1", "ucalc: 2",
+         "b.yaml:1:8: ucalc: budget format version 2 is not supported; this ucalc reads version 1"),
+        ("  c = k * P", "  c = k ^ P", "b.yaml:6:7: model line 'c': '^' is not a power operator; write '**'"),
+        ("  c = k * P", "  c = k * P.__class__",
+         "b.yaml:6:11: model line 'c': name '__class__' is not allowed: names may not start with '_' or hold '__'"),
+        ("title: t\n", "title: t\ntitle: u\n", "b.yaml:3:1: YAML: found duplicate key \"title\""),
+    ],
+)
+def test_error_messages(old: str, new: str, expected: str) -> None:
+    assert old in GOOD
+    assert expected in errors_of(GOOD.replace(old, new, 1))
+
+
+def test_every_problem_is_listed() -> None:
+    text = GOOD.replace("half_width: 0.1,", "half_width: -0.1,").replace("k = m / V", "k = m / W")
+    assert len(errors_of(text)) == 2
+
+
+def test_correlation_problems() -> None:
+    corr = "correlations:\n  - {between: [m, V], r: 0.9}\n  - {between: [m, P], r: 0.9}\n  - {between: [P, V], r: -0.9}\n"
+    assert errors_of(GOOD + corr) == [
+        "b.yaml:21:1: correlations: the correlation matrix of P, V, m is not positive semi-definite "
+        "(smallest eigenvalue -0.8); the coefficients contradict each other"
+    ]
+    assert errors_of(GOOD + "correlations:\n  - {between: [m, Q], r: 0.5}\n") == [
+        "b.yaml:22:19: correlation 1: unknown input 'Q'"
+    ]
+    assert errors_of(GOOD + "correlations:\n  - {between: [m, V], r: 1.5}\n") == [
+        "b.yaml:22:26: correlation 1: r: must be at most 1 (got 1.5)"
+    ]
+
+
+def test_last_line_must_define_the_measurand() -> None:
+    assert errors_of(GOOD.replace("symbol: c,", "symbol: conc,")) == [
+        "b.yaml:6:3: model line 'c': the last model line defines 'c' but the measurand is 'conc'"
+    ]
+
+
+def test_dof_below_one_is_refused() -> None:
+    text = GOOD.replace("{name: balance, expanded: 0.1, k: 2}", "{name: balance, standard: 0.05, dof: 0.5}")
+    assert errors_of(text) == ["b.yaml:12:46: input 'm': components[0].dof: must be at least 1 (got 0.5)"]
+
+
+def test_yaml_tags_are_refused() -> None:
+    text = GOOD.replace("title: t", "title: !!python/object/apply:os.system ['echo hi']")
+    (message,) = errors_of(text)
+    assert message.startswith("b.yaml:2:") and "not allowed" in message

@@ -1,0 +1,66 @@
+"""Units: dimensional checks and conversion to the measurand's unit (pint as the reference for factors)."""
+
+from __future__ import annotations
+
+import pytest
+
+from ucalc.budget.load import load_budget_text
+from ucalc.engines.gum import propagate
+from ucalc.errors import BudgetErrors
+
+
+def budget(model: str, unit: str, inputs: str) -> str:
+    return f"ucalc: 1\ntitle: t\nmeasurand: {{symbol: y, unit: '{unit}'}}\nmodel: |\n  {model}\ninputs:\n{inputs}\n"
+
+
+MASS_VOLUME = ("  m: {value: 100.28, unit: mg, components: [{name: a, standard: 0.05}]}\n"
+               "  V: {value: 100, unit: mL, components: [{name: b, standard: 0.07}]}")
+
+
+def test_mg_per_ml_is_converted_to_mg_per_l() -> None:
+    # 1 mg/mL = 1000 mg/L (SI definition of the litre)  # common practice
+    r = propagate(load_budget_text(budget("y = m / V", "mg/L", MASS_VOLUME)))
+    assert r.value == pytest.approx(1002.8, rel=1e-12)
+    assert r.contributions[0].sensitivity == pytest.approx(-10.028, rel=1e-12) or \
+        r.contributions[1].sensitivity == pytest.approx(-10.028, rel=1e-12)
+
+
+def test_compatible_units_are_scaled_inside_sums() -> None:
+    inputs = ("  a: {value: 1, unit: g, components: [{name: s, standard: 0.001}]}\n"
+              "  b: {value: 250, unit: mg, components: [{name: s, standard: 0.1}]}")
+    r = propagate(load_budget_text(budget("y = a + b", "g", inputs)))
+    assert r.value == pytest.approx(1.25, rel=1e-12)
+    assert r.standard_uncertainty == pytest.approx((0.001**2 + 0.0001**2) ** 0.5, rel=1e-12)
+
+
+def test_unit_mismatch_names_the_model_line() -> None:
+    with pytest.raises(BudgetErrors) as info:
+        load_budget_text(budget("y = m + V", "mg", MASS_VOLUME), "b.yaml")
+    assert str(info.value) == "b.yaml:5:7: model line 'y': unit mismatch: cannot add 'mL' to 'mg'"
+
+
+def test_result_unit_must_match_measurand() -> None:
+    with pytest.raises(BudgetErrors) as info:
+        load_budget_text(budget("y = m / V", "mg", MASS_VOLUME), "b.yaml")
+    assert "cannot be expressed in the measurand's unit 'mg'" in str(info.value)
+    assert str(info.value).startswith("b.yaml:5:3: model line 'y'")
+
+
+def test_function_arguments_must_be_dimensionless() -> None:
+    with pytest.raises(BudgetErrors) as info:
+        load_budget_text(budget("y = log(m)", "", MASS_VOLUME))
+    assert "the argument of log() must be dimensionless" in str(info.value)
+
+
+def test_percent_is_a_dimensionless_fraction() -> None:
+    inputs = ("  w: {value: 99.5, unit: '%', components: [{name: s, standard: 0.1}]}\n"
+              "  m: {value: 10, unit: mg, components: [{name: s, standard: 0.01}]}")
+    r = propagate(load_budget_text(budget("y = w * m", "mg", inputs)))
+    assert r.value == pytest.approx(9.95, rel=1e-12)
+
+
+def test_offset_temperature_unit_is_refused() -> None:
+    inputs = "  t: {value: 20, unit: degC, components: [{name: s, standard: 0.1}]}"
+    with pytest.raises(BudgetErrors) as info:
+        load_budget_text(budget("y = t * 2", "K", inputs))
+    assert "offset zero" in str(info.value)
