@@ -223,7 +223,6 @@ def _build_inputs(
     raw_inputs: Any, doc: Document, errors: list[BudgetError]
 ) -> tuple[dict[str, Quantity], dict[tuple[str, str], float], set[str]]:
     """Build every input; also return the names of inputs that failed (so the model does not report them)."""
-    from ..inputs.base import get_model, model_key
 
     quantities: dict[str, Quantity] = {}
     correlations: dict[tuple[str, str], float] = {}

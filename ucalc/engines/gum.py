@@ -115,8 +115,11 @@ def propagate(budget: Budget, *, second_order: bool = False) -> GumResult:
             contribution=abs(t), index=(t * t / variance) if variance > 0 else 0.0, kind=x.kind, shape=x.shape,
         ))
     contributions.sort(key=lambda row: (-row.contribution, row.input))
-    if cross:
-        notes.append(f"correlation terms add {cross / variance:+.1%} of u_c^2" if variance else "")
+    if cross and first:
+        change = "raise" if cross > 0 else "lower"
+        notes.append(f"correlation terms {change} u_c^2 to {(first + cross) / first:.0%} of the uncorrelated sum; "
+                     "effective dof by Welch-Satterthwaite over the uncorrelated terms, which is conservative "
+                     "where correlations cancel")
     if second:
         notes.append(f"second-order terms add {second / variance:.1%} of u_c^2")
     return GumResult(
