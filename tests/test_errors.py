@@ -91,7 +91,6 @@ def test_every_problem_is_listed() -> None:
 def test_correlation_problems() -> None:
     corr = ("correlations:\n  - {between: [m, V], r: 0.9}\n  - {between: [m, P], r: 0.9}\n"
             "  - {between: [P, V], r: -0.9}\n")
-            "  - {between: [P, V], r: -0.9}\n")
     assert errors_of(GOOD + corr) == [
         "b.yaml:21:1: correlations: the correlation matrix of P, V, m is not positive semi-definite "
         "(smallest eigenvalue -0.8); the coefficients contradict each other"
