@@ -87,9 +87,9 @@ def parse_yaml(text: str, file: str) -> Document:
         stripped = line.lstrip(" ")
         if stripped.startswith("\t"):
             _fail("a tab is used for indentation; YAML needs spaces", file, number, len(line) - len(stripped) + 1)
-    yaml = YAML(typ="rt")
+    loader = YAML(typ="rt")  # round-trip loader: plain mappings and scalars only, never objects
     try:
-        raw = yaml.load(io.StringIO(text))
+        raw = loader.load(io.StringIO(text))
     except MarkedYAMLError as exc:
         mark = exc.problem_mark or exc.context_mark
         problem = (exc.problem or exc.context or "YAML error").strip()
