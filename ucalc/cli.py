@@ -7,6 +7,8 @@ Heavy libraries are imported inside the commands so that ``ucalc --help`` starts
 from __future__ import annotations
 
 import sys
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from enum import StrEnum
 from pathlib import Path
 from typing import TYPE_CHECKING, Annotated
@@ -55,30 +57,64 @@ def check(budget: BudgetArg) -> None:
     typer.echo(f"{budget}: ok ({len(b.model.inputs)} inputs, {len(b.model.lines)} model lines)")
 
 
+class Method(StrEnum):
+    gum = "gum"
+    mc = "mc"
+    both = "both"
+
+
 @app.command()
 def run(
     budget: BudgetArg,
     format: Annotated[Format, typer.Option("--format", "-f", help="output format")] = Format.text,
+    method: Annotated[Method, typer.Option("--method", "-m", help="GUM, Monte Carlo, or both")] = Method.gum,
     second_order: Annotated[bool, typer.Option("--second-order",
                                                help="add second-order terms (JCGM 100 5.1.2 note)")] = False,
+    trials: Annotated[int, typer.Option("--trials", "-n", min=100, help="Monte Carlo trials")] = 1_000_000,
+    adaptive: Annotated[bool, typer.Option("--adaptive", help="adaptive Monte Carlo (JCGM 101 7.9)")] = False,
+    digits: Annotated[int, typer.Option("--digits", min=1, max=6,
+                                        help="significant digits of u for adaptive MC and validation")] = 2,
+    seed: Annotated[int | None, typer.Option("--seed", min=0, help="Monte Carlo seed (default: fresh, reported)")]
+    = None,
 ) -> None:
     """Propagate a budget and print the budget table and the expanded uncertainty."""
     from .errors import UcalcError
-    from .workflow import evaluate
+    from .workflow import MonteCarloOptions, evaluate
 
+    options = MonteCarloOptions(trials=trials, seed=seed, adaptive=adaptive, digits=digits)
     try:
-        result = evaluate(budget, second_order=second_order)
+        with _progress(method is not Method.gum and (adaptive or trials >= 2_000_000)) as progress:
+            result = evaluate(budget, method=method.value, second_order=second_order, mc=options,
+                              progress=progress)
     except UcalcError as exc:
         _fail(exc)
         return
     if format is Format.json:
-        from .reports.jsonout import dumps, gum_json
+        from .reports.jsonout import dumps, evaluation_json
 
-        typer.echo(dumps(gum_json(result.budget, result.gum)))
+        typer.echo(dumps(evaluation_json(result.budget, result.gum, result.mc)))
         return
-    from .reports.text import render_gum
+    from .reports.text import render_evaluation
 
-    render_gum(_console(), result.budget, result.gum)
+    render_evaluation(_console(), result.budget, result.gum, result.mc, show_gum=method is not Method.mc)
+
+
+@contextmanager
+def _progress(wanted: bool) -> Iterator[Callable[[int, int], None] | None]:
+    """A progress bar on stderr, only when stderr is a terminal and the run is long."""
+    if not (wanted and sys.stderr.isatty()):
+        yield None
+        return
+    from rich.console import Console
+    from rich.progress import Progress
+
+    with Progress(console=Console(stderr=True), transient=True) as bar:
+        task = bar.add_task("Monte Carlo", total=None)
+
+        def update(done: int, total: int) -> None:
+            bar.update(task, completed=done, total=total)
+
+        yield update
 
 
 def _console() -> Console:

@@ -60,8 +60,10 @@ class Distribution:
         if self.shape == "rectangular":
             return self.scale * (2.0 * rng.random(n) - 1.0)
         if self.shape == "triangular":
-            # sum of two rectangular halves, JCGM 101 6.4.5
-            return self.scale * (rng.random(n) - rng.random(n))
+            # difference of two rectangular variates (JCGM 101 6.4.5); drawn in pairs so that a stream split
+            # into blocks gives the same values as one long draw
+            pairs = rng.random((n, 2))
+            return self.scale * (pairs[:, 0] - pairs[:, 1])
         if self.shape == "arcsine":
             return self.scale * np.sin(2.0 * np.pi * rng.random(n))
         raise ValueError(self.shape)  # pragma: no cover

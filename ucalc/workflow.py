@@ -4,17 +4,34 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from pathlib import Path
+from typing import TYPE_CHECKING, Literal
 
 from .budget.definitions import Budget
 from .engines.gum import GumResult
 
+if TYPE_CHECKING:
+    from .engines.montecarlo import MonteCarloResult, Progress
+
+Method = Literal["gum", "mc", "both"]
+
 
 @dataclass(frozen=True)
 class Evaluation:
-    """A budget with the results of the engines that were run on it."""
+    """A budget with the results of the engines that were run on it (``mc`` is None for the GUM alone)."""
 
     budget: Budget
     gum: GumResult
+    mc: MonteCarloResult | None = None
+    method: Method = "gum"
+
+
+@dataclass(frozen=True)
+class MonteCarloOptions:
+    trials: int = 1_000_000
+    seed: int | None = None
+    adaptive: bool = False
+    digits: int = 2
+    block_size: int | None = None
 
 
 def check_budget(path: str | Path) -> Budget:
@@ -24,9 +41,28 @@ def check_budget(path: str | Path) -> Budget:
     return load_budget(path)
 
 
-def evaluate(path: str | Path, *, second_order: bool = False) -> Evaluation:
-    """Load a budget and propagate it by the GUM."""
+def evaluate_budget(budget: Budget, *, method: Method = "gum", second_order: bool = False,
+                    mc: MonteCarloOptions | None = None, progress: Progress | None = None) -> Evaluation:
+    """Propagate a loaded budget by the GUM and, if asked, by Monte Carlo with the GUM validated against it."""
     from .engines.gum import propagate
 
-    budget = check_budget(path)
-    return Evaluation(budget, propagate(budget, second_order=second_order))
+    gum = propagate(budget, second_order=second_order)
+    if method == "gum":
+        return Evaluation(budget, gum, None, method)
+    from .engines import montecarlo
+
+    options = mc or MonteCarloOptions()
+    block = {"block_size": options.block_size} if options.block_size else {}
+    if options.adaptive:
+        result = montecarlo.simulate_adaptive(budget, digits=options.digits, seed=options.seed, progress=progress,
+                                              **block)
+    else:
+        result = montecarlo.simulate(budget, trials=options.trials, seed=options.seed, progress=progress, **block)
+    validation = montecarlo.validate(gum, result, options.digits)
+    return Evaluation(budget, gum, montecarlo.with_validation(result, validation), method)
+
+
+def evaluate(path: str | Path, *, method: Method = "gum", second_order: bool = False,
+             mc: MonteCarloOptions | None = None, progress: Progress | None = None) -> Evaluation:
+    """Load a budget file and evaluate it (see :func:`evaluate_budget`)."""
+    return evaluate_budget(check_budget(path), method=method, second_order=second_order, mc=mc, progress=progress)

@@ -7,11 +7,14 @@ from __future__ import annotations
 
 import json
 import math
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from .. import __version__
 from ..budget.definitions import Budget, Quantity
 from ..engines.gum import GumResult
+
+if TYPE_CHECKING:
+    from ..engines.montecarlo import MonteCarloResult
 
 
 def _dof(nu: float) -> float | None:
@@ -34,6 +37,36 @@ def quantity_json(q: Quantity) -> dict[str, Any]:
         ],
         "working": list(q.working),
     }
+
+
+def monte_carlo_json(mc: MonteCarloResult) -> dict[str, Any]:
+    v = mc.validation
+    return {
+        "trials": mc.trials,
+        "seed": mc.seed,
+        "value": mc.value,
+        "standard_uncertainty": mc.standard_uncertainty,
+        "coverage_probability": mc.coverage_probability,
+        "interval": list(mc.interval),
+        "shortest_interval": list(mc.shortest_interval),
+        "nonfinite": mc.nonfinite,
+        "adaptive": mc.adaptive,
+        "digits": mc.digits,
+        "validation": None if v is None else {
+            "delta": v.delta, "d_low": v.d_low, "d_high": v.d_high, "passed": v.passed, "digits": v.digits,
+            "gum_interval": list(v.gum_interval),
+        },
+        "histogram": {"counts": list(mc.histogram.counts), "edges": list(mc.histogram.edges),
+                      "outside": mc.histogram.outside},
+        "notes": list(mc.notes),
+    }
+
+
+def evaluation_json(budget: Budget, gum: GumResult, mc: MonteCarloResult | None = None) -> dict[str, Any]:
+    data = gum_json(budget, gum)
+    if mc is not None:
+        data["monte_carlo"] = monte_carlo_json(mc)
+    return data
 
 
 def gum_json(budget: Budget, result: GumResult) -> dict[str, Any]:

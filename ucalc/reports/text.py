@@ -7,10 +7,12 @@ from typing import TYPE_CHECKING
 from .. import units
 from ..budget.definitions import Budget
 from ..engines.gum import GumResult
-from .common import CAUTION, dof_text, num, result_line
+from .common import CAUTION, dof_text, num, probability_text, result_line
 
 if TYPE_CHECKING:
     from rich.console import Console
+
+    from ..engines.montecarlo import MonteCarloResult
 
 
 SHAPES = {"rectangular": "rect", "triangular": "tri", "combined": "mixed"}
@@ -25,6 +27,46 @@ def _unit(text: str) -> str:
         return text
 
 
+def render_header(console: Console, budget: Budget) -> None:
+    """Title, measurand and model lines."""
+    from rich.markup import escape
+
+    mu = _unit(budget.measurand.unit)
+    console.print(f"[bold]{escape(budget.title)}[/bold]")
+    desc = f" — {budget.measurand.description}" if budget.measurand.description else ""
+    console.print(escape(f"measurand {budget.measurand.symbol} [{mu or 'dimensionless'}]{desc}"))
+    for line in budget.model.lines:
+        console.print(escape(f"  {line.name} = {line.text}"))
+
+
+def render_monte_carlo(console: Console, budget: Budget, mc: MonteCarloResult) -> None:
+    """The Monte Carlo summary and, when present, the GUM validation verdict (JCGM 101 7, 8)."""
+    from rich.markup import escape
+
+    mu = _unit(mc.unit)
+    unit = f" {mu}" if mu else ""
+    how = (f"adaptive, {mc.stages} stages, {mc.digits} significant digits" if mc.adaptive else "fixed trials")
+    console.print(f"[bold]Monte Carlo[/bold] (JCGM 101): {mc.trials:,} trials ({how}), seed {mc.seed}")
+    pct = probability_text(mc.coverage_probability)
+    console.print(f"  mean {num(mc.value, 8)}{unit}, standard deviation {num(mc.standard_uncertainty, 3)}{unit}")
+    console.print(f"  {pct} probabilistically symmetric interval [{num(mc.interval[0], 8)}, "
+                  f"{num(mc.interval[1], 8)}]{unit}")
+    console.print(f"  {pct} shortest interval [{num(mc.shortest_interval[0], 8)}, "
+                  f"{num(mc.shortest_interval[1], 8)}]{unit}")
+    if mc.nonfinite:
+        console.print(f"  non-finite trials: {mc.nonfinite} (left out)")
+    v = mc.validation
+    if v is not None:
+        verdict = "[green]passed[/green]" if v.passed else "[red]failed[/red]"
+        console.print(f"  GUM validation (JCGM 101 8.2): delta = {num(v.delta, 2)}{unit}, d_low = "
+                      f"{num(v.d_low, 2)}{unit}, d_high = {num(v.d_high, 2)}{unit}: {verdict}")
+        if not v.passed:
+            console.print("  the GUM interval differs from the Monte Carlo one by more than delta; "
+                          "report the Monte Carlo interval")
+    for note in mc.notes:
+        console.print(escape(f"  note: {note}"))
+
+
 def render_gum(console: Console, budget: Budget, result: GumResult) -> None:
     """Print the budget table and the result line to a rich console."""
     from rich.table import Table
@@ -32,11 +74,6 @@ def render_gum(console: Console, budget: Budget, result: GumResult) -> None:
     mu = _unit(result.unit)
     from rich.markup import escape
 
-    console.print(f"[bold]{escape(budget.title)}[/bold]")
-    desc = f" — {budget.measurand.description}" if budget.measurand.description else ""
-    console.print(escape(f"measurand {result.measurand} [{mu or 'dimensionless'}]{desc}"))
-    for line in budget.model.lines:
-        console.print(escape(f"  {line.name} = {line.text}"))
     table = Table(title=None, show_lines=False, header_style="bold")
     for col, justify in [("input", "left"), ("estimate", "right"), ("unit", "left"), ("u", "right"),
                          ("type", "left"), ("dof", "right"), ("c_i", "right"), (escape(f"|c_i|·u [{mu}]"), "right"),
@@ -55,4 +92,18 @@ def render_gum(console: Console, budget: Budget, result: GumResult) -> None:
                                          result.coverage_factor, result.coverage_probability) + "[/bold]")
     for note in (*result.notes, *budget.warnings):
         console.print(escape(f"note: {note}"))
+
+
+def render_caution(console: Console) -> None:
     console.print(f"[dim]{CAUTION}[/dim]")
+
+
+def render_evaluation(console: Console, budget: Budget, gum: GumResult, mc: MonteCarloResult | None,
+                      show_gum: bool = True) -> None:
+    """The whole terminal report of ``ucalc run``."""
+    render_header(console, budget)
+    if show_gum:
+        render_gum(console, budget, gum)
+    if mc is not None:
+        render_monte_carlo(console, budget, mc)
+    render_caution(console)
