@@ -23,7 +23,7 @@ if TYPE_CHECKING:
     from .gum import GumResult
 
 MAX_NONFINITE_FRACTION = 1e-3
-DEFAULT_BLOCK = 1 << 17
+DEFAULT_BLOCK = 131072
 HISTOGRAM_BINS = 80
 
 Progress = Callable[[int, int], None]
@@ -118,19 +118,24 @@ class Sampler:
             cov = r * np.outer(u, u)
             w, v = np.linalg.eigh(cov)
             self.factor = v * np.sqrt(np.clip(w, 0.0, None))  # cov = F F^T, also for singular matrices
-        self.estimates = {n: budget.quantities[n].value for n in names}
+        self.estimates = {n: float(budget.quantities[n].value) for n in names}
 
     def block(self, n: int) -> dict[str, np.ndarray]:
         import numpy as np
 
-        env = {name: np.full(n, value) for name, value in self.estimates.items()}
+        env: dict[str, Any] = dict(self.estimates)  # exact inputs stay scalars and broadcast
         for (name, dist), rng in zip(self.sources, self.generators, strict=False):
-            env[name] += dist.sample(n, rng)
+            x = dist.sample(n, rng)
+            if isinstance(env[name], float):
+                x += env[name]
+                env[name] = x
+            else:
+                env[name] += x
         if self.correlated:
             z = self.generators[-1].standard_normal((n, len(self.correlated)))
             deviations = z @ self.factor.T
             for j, name in enumerate(self.correlated):
-                env[name] += deviations[:, j]
+                env[name] = deviations[:, j] + self.estimates[name]
         return env
 
 
@@ -188,7 +193,7 @@ def _summarise(budget: Budget, y: np.ndarray, seed: int, p: float, *, adaptive: 
     mean = float(np.mean(y))
     sd = float(np.std(y, ddof=1))
     symmetric, shortest = _intervals(y, p)
-    lo, hi = np.quantile(y, [0.0005, 0.9995])
+    lo, hi = y[int(0.0005 * (len(y) - 1))], y[int(math.ceil(0.9995 * (len(y) - 1)))]  # y is sorted
     if hi <= lo:
         lo, hi = float(y[0]) - 0.5, float(y[-1]) + 0.5
     counts, edges = np.histogram(y, bins=HISTOGRAM_BINS, range=(float(lo), float(hi)))
