@@ -121,7 +121,6 @@ class Sampler:
         self.estimates = {n: float(budget.quantities[n].value) for n in names}
 
     def block(self, n: int) -> dict[str, np.ndarray]:
-        import numpy as np
 
         env: dict[str, Any] = dict(self.estimates)  # exact inputs stay scalars and broadcast
         for (name, dist), rng in zip(self.sources, self.generators, strict=False):
