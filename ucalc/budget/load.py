@@ -11,6 +11,7 @@ import difflib
 import hashlib
 import math
 import re
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
@@ -153,13 +154,14 @@ def build_budget(doc: Document) -> Budget:
         for e in validation_errors(exc, BudgetSpec, doc, (), ""):
             errors.append(_subject_from_rule(e))
 
-    quantities, correlations_extra, failed = _build_inputs(raw_inputs, doc, errors)
+    built = _build_inputs(raw_inputs, doc, errors)
+    quantities, correlations_extra, failed = built.quantities, built.correlations, built.failed
 
     measurand = _part(top, "measurand", MeasurandSpec, doc, spec)
     coverage = _part(top, "coverage", CoverageSpec, doc, spec) or CoverageSpec(probability=0.95)
     model: Model | None = None
     if isinstance(top.get("model"), str) and isinstance(measurand, MeasurandSpec):
-        model = _build_model(top["model"], measurand, quantities, failed, doc, errors)
+        model = _build_model(top["model"], measurand, quantities, failed, doc, errors, built.lines)
 
     correlations = dict(correlations_extra)
     raw_corr = top.get("correlations")
@@ -174,9 +176,10 @@ def build_budget(doc: Document) -> Budget:
             errors.append(BudgetError("budget is incomplete", location=Location(doc.file, 1, 1)))
         raise BudgetErrors(errors)
 
-    warnings = tuple(
+    defined = {line.name for line in model.lines}
+    warnings = built.warnings + tuple(
         f"input '{name}' is not used by the model"
-        for name in spec.inputs if name not in model.inputs
+        for name in spec.inputs if name in quantities and name not in model.inputs and name not in defined
     )
     return Budget(
         title=spec.title,
@@ -219,27 +222,33 @@ def _part(top: dict[str, Any], key: str, model: type[BaseModel], doc: Document, 
         return None  # already reported by the top-level validation
 
 
-def _build_inputs(
-    raw_inputs: Any, doc: Document, errors: list[BudgetError]
-) -> tuple[dict[str, Quantity], dict[tuple[str, str], float], set[str]]:
-    """Build every input; also return the names of inputs that failed (so the model does not report them)."""
+@dataclass
+class _Inputs:
+    """What the inputs section builds: quantities, correlations among them, model lines that input models
+    define (a dilution factor as the product of its steps), warnings, and the names of inputs that failed."""
 
-    quantities: dict[str, Quantity] = {}
-    correlations: dict[tuple[str, str], float] = {}
-    failed: set[str] = set()
+    quantities: dict[str, Quantity] = field(default_factory=dict)
+    correlations: dict[tuple[str, str], float] = field(default_factory=dict)
+    lines: list[tuple[str, str, Location]] = field(default_factory=list)
+    warnings: tuple[str, ...] = ()
+    failed: set[str] = field(default_factory=set)
+
+
+def _build_inputs(raw_inputs: Any, doc: Document, errors: list[BudgetError]) -> _Inputs:
+    """Build every input; inputs that fail are remembered so that the model does not report them again."""
+    out = _Inputs()
     if not isinstance(raw_inputs, dict):
-        return quantities, correlations, failed
+        return out
     for name, raw in raw_inputs.items():
         before = len(errors)
-        _build_input(name, raw, doc, errors, quantities, correlations)
+        _build_input(name, raw, doc, errors, out)
         if len(errors) > before:
-            failed.add(name)
-    return quantities, correlations, failed
+            out.failed.add(name)
+    return out
 
 
-def _build_input(name: str, raw: Any, doc: Document, errors: list[BudgetError], quantities: dict[str, Quantity],
-                 correlations: dict[tuple[str, str], float]) -> None:
-    """Validate one input with its input model and add what it derives to ``quantities``."""
+def _build_input(name: str, raw: Any, doc: Document, errors: list[BudgetError], out: _Inputs) -> None:
+    """Validate one input with its input model and add what it derives to ``out``."""
     from ..inputs.base import get_model, model_key
 
     subject = f"input '{name}'"
@@ -270,16 +279,19 @@ def _build_input(name: str, raw: Any, doc: Document, errors: list[BudgetError], 
         errors.append(BudgetError(str(exc), location=location, subject=subject))
         return
     for q in derived.quantities:
-        if q.name in quantities:
+        if q.name in out.quantities:
             errors.append(BudgetError(f"quantity '{q.name}' is defined twice",
                                       location=doc.locate(path, key=True), subject=subject))
         finite = math.isfinite(q.value) and all(math.isfinite(c.standard_uncertainty) for c in q.components)
         if not finite:
             errors.append(BudgetError("value or uncertainty is not a finite number",
                                       location=doc.locate(path), subject=subject))
-        quantities[q.name] = q
+        out.quantities[q.name] = q
     for a, b, r in derived.correlations:
-        correlations[(a, b)] = r
+        out.correlations[(a, b) if a < b else (b, a)] = r
+    if derived.expression:
+        out.lines.append((name, derived.expression, doc.locate(path, key=True)))
+    out.warnings += tuple(f"input '{name}': {w}" for w in derived.warnings)
 
 
 def _model_positions(doc: Document, text: str) -> list[tuple[int, int]]:
@@ -302,7 +314,7 @@ def _model_positions(doc: Document, text: str) -> list[tuple[int, int]]:
 
 def _build_model(
     text: str, measurand: MeasurandSpec, quantities: dict[str, Quantity], failed: set[str], doc: Document,
-    errors: list[BudgetError],
+    errors: list[BudgetError], input_lines: list[tuple[str, str, Location]] | None = None,
 ) -> Model | None:
     """Parse, check and compile the model lines; names of ``failed`` inputs are not reported again."""
     positions = _model_positions(doc, text)
@@ -315,6 +327,10 @@ def _build_model(
     lines: list[ModelLine] = []
     defined_later = set()
     parsed: list[tuple[str, str, Location, int]] = []
+    for name, body, where in input_lines or []:  # lines defined by input models come first
+        parsed.append((name, body, where, where.column))
+        defined_later.add(name)
+    user_lines = len(parsed)
     for index, raw in enumerate(text.split("\n")):
         body = raw.split("#", 1)[0]
         if not body.strip():
@@ -330,15 +346,15 @@ def _build_model(
         expr_col = col0 + len(body) - len(m.group(3))
         parsed.append((name, m.group(3), where, expr_col))
         defined_later.add(name)
-    if not parsed:
+    if len(parsed) == user_lines:
         if not any(e.subject.startswith("model") for e in errors):
             errors.append(BudgetError("the model has no line 'name = expression'",
                                       location=doc.locate(("model",)), subject="model"))
         return None
     ok = True
     seen_lines: set[str] = set()
-    for name, body, where, expr_col in parsed:
-        subject = f"model line '{name}'"
+    for index, (name, body, where, expr_col) in enumerate(parsed):
+        subject = f"model line '{name}'" if index >= user_lines else f"input '{name}'"
         if name in quantities or name in seen_lines:
             errors.append(BudgetError(f"'{name}' is defined twice (as an input or an earlier model line)",
                                       location=where, subject=subject))

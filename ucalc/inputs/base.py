@@ -19,10 +19,17 @@ from ..errors import Location
 
 @dataclass(frozen=True)
 class Derived:
-    """What an input model yields: quantities (the first is the input itself) and correlations among them."""
+    """What an input model yields.
+
+    ``quantities``: the input itself (named as the input) and any auxiliary quantities (named ``input.field``);
+    ``correlations``: (a, b, r) among them; ``expression``: when set, the input is not a quantity but this
+    expression over auxiliary quantities, inserted as a model line (so each item stays its own row in the
+    budget table); ``warnings``: text for the user.
+    """
 
     quantities: tuple[Quantity, ...]
     correlations: tuple[tuple[str, str, float], ...] = ()
+    expression: str | None = None
     warnings: tuple[str, ...] = field(default=())
 
 
