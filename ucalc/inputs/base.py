@@ -9,9 +9,9 @@ from __future__ import annotations
 
 import importlib
 from dataclasses import dataclass, field
-from typing import Any, Protocol
+from typing import Any, ClassVar, Protocol
 
-from pydantic import BaseModel
+from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from ..budget.definitions import Quantity
 from ..errors import Location
@@ -33,6 +33,28 @@ class Derived:
     warnings: tuple[str, ...] = field(default=())
 
 
+class InputSpec(BaseModel):
+    """Base of an input model's spec: the model's own block under ``KEY``, plus ``unit`` and ``description``.
+
+    The unit may be written at the input's level or inside the block (not both, differently).
+    """
+
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False, populate_by_name=True)
+    KEY: ClassVar[str] = ""
+    DEFAULT_UNIT: ClassVar[str | None] = None
+
+    unit: str | None = Field(default=None, max_length=100)
+    description: str | None = None
+
+    @model_validator(mode="after")
+    def _resolve_unit(self) -> InputSpec:
+        inner = getattr(getattr(self, self.KEY, None), "unit", None)
+        if inner and self.unit and inner != self.unit:
+            raise ValueError(f"unit given twice: '{self.unit}' and '{inner}' inside '{self.KEY}'")
+        self.unit = inner or self.unit or self.DEFAULT_UNIT
+        return self
+
+
 class InputModel(Protocol):
     """A module implementing an input model has a pydantic ``Spec`` and a ``derive`` function."""
 
@@ -44,6 +66,14 @@ class InputModel(Protocol):
 # key that marks the model in a budget -> module in this package
 REGISTRY: dict[str, str] = {
     "components": "direct",
+    "glassware": "glassware",
+    "balance": "balance",
+    "certificate": "certificate",
+    "replicates": "replicates",
+    "recovery": "recovery",
+    "calibration": "calibration",
+    "dilution": "dilution",
+    "molar_mass": "molar_mass",
 }
 
 

@@ -94,6 +94,22 @@ def render_gum(console: Console, budget: Budget, result: GumResult) -> None:
         console.print(escape(f"note: {note}"))
 
 
+def render_working(console: Console, budget: Budget) -> None:
+    """How each derived input was obtained (input models), one block per quantity that has working."""
+    from rich.markup import escape
+
+    shown = [q for q in budget.quantities.values() if q.working]
+    if not shown:
+        return
+    console.print("[bold]Derived inputs[/bold]")
+    for q in shown:
+        unit = f" {_unit(q.unit)}" if q.unit else ""
+        console.print(escape(f"  {q.name} ({q.model}): {num(q.value, 7)}{unit}, u = {num(q.standard_uncertainty, 3)}"
+                             f"{unit}, dof {dof_text(q.dof)}"))
+        for line in q.working:
+            console.print(escape(f"    {line}"))
+
+
 def render_caution(console: Console) -> None:
     console.print(f"[dim]{CAUTION}[/dim]")
 
@@ -104,6 +120,7 @@ def render_evaluation(console: Console, budget: Budget, gum: GumResult, mc: Mont
     render_header(console, budget)
     if show_gum:
         render_gum(console, budget, gum)
+        render_working(console, budget)
     if mc is not None:
         render_monte_carlo(console, budget, mc)
     render_caution(console)

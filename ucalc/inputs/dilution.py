@@ -1,0 +1,65 @@
+"""A dilution factor from a chain of steps, each an aliquot made up to a final volume (or mass).
+
+f = prod(final_i / aliquot_i). Each aliquot and final item is built by its own input model (glassware, balance,
+certificate or direct components) and stays a quantity of its own, named ``D.s1_aliquot``, ``D.s1_final``...;
+the factor enters the model as the line ``D = (D.s1_final / D.s1_aliquot) * ...`` so that the budget table
+shows every item with its own sensitivity coefficient.
+"""
+
+from __future__ import annotations
+
+from typing import Any, ClassVar
+
+from pydantic import BaseModel, ConfigDict, Field, ValidationError
+
+from ..errors import Location
+from .base import Derived, InputSpec, get_model, model_key
+
+
+class Step(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    aliquot: dict[str, Any]
+    final: dict[str, Any]
+
+
+class Spec(InputSpec):
+    KEY: ClassVar[str] = "dilution"
+
+    dilution: list[Step] = Field(min_length=1, max_length=20)
+
+
+def derive(name: str, spec: Spec, location: Location) -> Derived:
+    from .. import units
+
+    if spec.unit:
+        raise ValueError("a dilution factor has no unit; give units on its aliquots and final volumes")
+    quantities = []
+    correlations: list[tuple[str, str, float]] = []
+    warnings: list[str] = []
+    factors = []
+    for i, step in enumerate(spec.dilution, 1):
+        item_units = []
+        for role in ("aliquot", "final"):
+            raw = getattr(step, role)
+            item = f"s{i}_{role}"
+            module = get_model(model_key(raw))
+            if module.__name__.endswith(".dilution"):
+                raise ValueError(f"step {i} {role}: a dilution cannot contain a dilution")
+            try:
+                item_spec = module.Spec.model_validate(raw)
+            except ValidationError as exc:
+                first = exc.errors()[0]
+                where = ".".join(str(p) for p in first["loc"])
+                raise ValueError(f"step {i} {role}: {where + ': ' if where else ''}"
+                                 f"{str(first['msg']).removeprefix('Value error, ')}") from None
+            derived = module.derive(f"{name}.{item}", item_spec, location)
+            quantities.extend(derived.quantities)
+            correlations.extend(derived.correlations)
+            warnings.extend(derived.warnings)
+            item_units.append(units.parse_unit(getattr(item_spec, "unit", None)))
+        if not units.same_dimension(item_units[0], item_units[1]):
+            raise ValueError(f"step {i}: aliquot and final must both be volumes or both masses")
+        factors.append(f"({name}.s{i}_final / {name}.s{i}_aliquot)")
+    return Derived(tuple(quantities), tuple(correlations), expression=" * ".join(factors),
+                   warnings=tuple(warnings))
