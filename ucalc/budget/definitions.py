@@ -36,6 +36,9 @@ class Component:
 
 def welch_satterthwaite(parts: list[tuple[float, float]]) -> float:
     """nu = (sum u_i^2)^2 / sum(u_i^4 / nu_i) over (u_i, nu_i) pairs (JCGM 100 G.4.1, eq. G.2b)."""
+    live = [(u, nu) for u, nu in parts if u > 0]
+    if len(live) == 1:
+        return live[0][1]  # exact for a single term (avoids rounding in u^4/u^4)
     total = sum(u * u for u, _ in parts)
     denom = sum(u**4 / nu for u, nu in parts if not math.isinf(nu) and u > 0)
     if denom == 0.0:
