@@ -213,10 +213,12 @@ def test_molar_mass_against_molmass(formula: str) -> None:
     # the interval our abridged standard atomic weights span
     from molmass import Formula
 
-    q = quantity(f"    molar_mass: '{formula}'", "g/mol")
-    span = sum(c.distribution.scale for c in q.components)
-    assert abs(q.value - Formula(formula).mass) <= span
-    assert q.unit == "g/mol"
+    budget = load_budget_text(one_input(f"    molar_mass: '{formula}'", "g/mol"))
+    result = propagate(budget)
+    span = sum(abs(c.sensitivity) * budget.quantities[c.input].components[0].distribution.scale
+               for c in result.contributions if budget.quantities[c.input].components)
+    assert abs(result.value - Formula(formula).mass) <= span
+    assert all(budget.quantities[c.input].unit == "g/mol" for c in result.contributions)
 
 
 def test_molar_mass_of_khp_as_in_cg4_a2() -> None:
@@ -229,9 +231,21 @@ def test_molar_mass_of_khp_as_in_cg4_a2() -> None:
         H: {value: 1.00794, half_width: 0.00007}
         O: {value: 15.9994, half_width: 0.0003}
         K: {value: 39.0983, half_width: 0.0001}"""
-    q = quantity(spec, "g/mol")
-    assert round(q.value, 4) == 204.2212
-    assert round(q.standard_uncertainty, 4) == 0.0038
+    result = propagate(load_budget_text(one_input(spec, "g/mol")))
+    assert round(result.value, 4) == 204.2212
+    assert round(result.standard_uncertainty, 4) == 0.0038
+
+
+def test_shared_element_cancels_in_a_mass_fraction() -> None:
+    # f = M(Pb)/M(Pb(NO3)2): the lead atomic weight appears in both; with A = Ar(Pb), B = 2 Ar(N) + 6 Ar(O),
+    # df/dA = B / (A + B)^2 exactly (quotient rule), far smaller than treating the two masses as independent
+    text = ("ucalc: 1\ntitle: t\nmeasurand: {symbol: f}\nmodel: |\n  f = M_Pb / M_salt\n"
+            "inputs:\n  M_Pb: {molar_mass: Pb}\n  M_salt: {molar_mass: Pb(NO3)2}\n")
+    budget = load_budget_text(text)
+    result = propagate(budget)
+    a, b = 207.2, 2 * 14.007 + 6 * 15.999  # periodictable's abridged values
+    row = next(c for c in result.contributions if c.input == "Ar.Pb")
+    assert row.sensitivity == pytest.approx(b / (a + b) ** 2, rel=1e-9)
 
 
 def test_molar_mass_errors() -> None:

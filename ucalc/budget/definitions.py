@@ -199,6 +199,7 @@ class Budget:
     source: str = ""
     sha256: str = ""
     warnings: tuple[str, ...] = ()
+    working: dict[str, tuple[str, tuple[str, ...]]] = field(default_factory=dict)
 
     def estimates(self) -> dict[str, float]:
         return {name: q.value for name, q in self.quantities.items()}

@@ -190,6 +190,7 @@ def build_budget(doc: Document) -> Budget:
         coverage=Coverage(coverage.probability, coverage.k, coverage.dof_rounding),
         source=doc.file,
         warnings=warnings,
+        working=built.working,
     )
 
 
@@ -232,6 +233,11 @@ class _Inputs:
     lines: list[tuple[str, str, Location]] = field(default_factory=list)
     warnings: tuple[str, ...] = ()
     failed: set[str] = field(default_factory=set)
+    working: dict[str, tuple[str, tuple[str, ...]]] = field(default_factory=dict)
+
+
+def _same_quantity(a: Quantity, b: Quantity) -> bool:
+    return (a.value, a.unit, a.components) == (b.value, b.unit, b.components)
 
 
 def _build_inputs(raw_inputs: Any, doc: Document, errors: list[BudgetError]) -> _Inputs:
@@ -279,7 +285,10 @@ def _build_input(name: str, raw: Any, doc: Document, errors: list[BudgetError], 
         errors.append(BudgetError(str(exc), location=location, subject=subject))
         return
     for q in derived.quantities:
-        if q.name in out.quantities:
+        shared = out.quantities.get(q.name)
+        if shared is not None and _same_quantity(shared, q):
+            continue  # a shared quantity, such as an element's atomic weight used by two molar masses
+        if shared is not None:
             errors.append(BudgetError(f"quantity '{q.name}' is defined twice",
                                       location=doc.locate(path, key=True), subject=subject))
         finite = math.isfinite(q.value) and all(math.isfinite(c.standard_uncertainty) for c in q.components)
@@ -291,6 +300,7 @@ def _build_input(name: str, raw: Any, doc: Document, errors: list[BudgetError], 
         out.correlations[(a, b) if a < b else (b, a)] = r
     if derived.expression:
         out.lines.append((name, derived.expression, doc.locate(path, key=True)))
+        out.working[name] = (getattr(module, "__name__", "").rsplit(".", 1)[-1], derived.working)
     out.warnings += tuple(f"input '{name}': {w}" for w in derived.warnings)
 
 

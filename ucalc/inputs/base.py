@@ -24,13 +24,15 @@ class Derived:
     ``quantities``: the input itself (named as the input) and any auxiliary quantities (named ``input.field``);
     ``correlations``: (a, b, r) among them; ``expression``: when set, the input is not a quantity but this
     expression over auxiliary quantities, inserted as a model line (so each item stays its own row in the
-    budget table); ``warnings``: text for the user.
+    budget table); ``warnings``: text for the user; ``working``: how an expression input was
+    obtained (a quantity carries its own).
     """
 
     quantities: tuple[Quantity, ...]
     correlations: tuple[tuple[str, str, float], ...] = ()
     expression: str | None = None
     warnings: tuple[str, ...] = field(default=())
+    working: tuple[str, ...] = ()
 
 
 class InputSpec(BaseModel):

@@ -45,17 +45,18 @@ class Spec(InputSpec):
 
 
 def component(spec: CertificateSpec, unit: str, name: str = "certificate") -> Component:
+    unit = f" {unit}" if unit else ""
     scale = abs(spec.value) if spec.relative else 1.0
     dof = math.inf if spec.dof is None else spec.dof
     if spec.expanded is not None and spec.k is not None:
         u = spec.expanded * scale / spec.k
         dist = Distribution("normal" if math.isinf(dof) else "t", u, dof)
         return Component(name, dist, "B", f"certified U = {spec.expanded:g}{' (relative)' if spec.relative else ''}"
-                                          f" {unit}, k = {spec.k:g}")
+                                          f"{unit}, k = {spec.k:g}")
     assert spec.half_width is not None
     a = spec.half_width * scale
     return Component(name, Distribution(spec.distribution, a, dof), "B",
-                     f"certified ±{spec.half_width:g}{' (relative)' if spec.relative else ''} {unit}, "
+                     f"certified ±{spec.half_width:g}{' (relative)' if spec.relative else ''}{unit}, "
                      f"{spec.distribution}")
 
 
@@ -64,5 +65,6 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
     comp = component(spec.certificate, unit)
     q = Quantity(name=name, value=spec.certificate.value, unit=unit, components=(comp,),
                  description=spec.description or "", model="certificate",
-                 working=(f"certified value {spec.certificate.value:g} {unit}; {comp.origin}",), location=location)
+                 working=(f"certified value {spec.certificate.value:g}{' ' + unit if unit else ''}; {comp.origin}",),
+                 location=location)
     return Derived((q,))

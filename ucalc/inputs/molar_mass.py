@@ -3,7 +3,9 @@
 M = sum n_e A_r(e) g/mol. Each element's standard atomic weight and its uncertainty come from the
 ``periodictable`` package (abridged standard atomic weights); the budget may override them for a particular
 source. As EURACHEM/CITAC CG4 does (A2.4), each tabulated uncertainty is the half-width of a rectangular
-distribution, and an element appearing n times contributes n times that half-width.
+distribution. Every element's atomic weight is one quantity, ``Ar.Pb``, shared by all molar masses of the
+budget, and the molar mass enters the model as the line ``M = 1 * Ar.Pb + 2 * Ar.N + 6 * Ar.O``: the ratio of
+two molar masses with an element in common (the lead fraction of a lead salt) is then computed correctly.
 """
 
 from __future__ import annotations
@@ -81,8 +83,9 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
     unknown = set(mm.atomic_weights) - set(atoms)
     if unknown:
         raise ValueError(f"atomic_weights gives {', '.join(sorted(unknown))}, not in formula '{mm.formula}'")
+    quantities = []
+    terms = []
     total = 0.0
-    comps = []
     working = []
     for symbol, n in atoms.items():
         if symbol in mm.atomic_weights:
@@ -90,12 +93,12 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
         else:
             value, half = standard_atomic_weight(symbol)
             source = "standard atomic weight"
+        comps = (Component(f"atomic weight of {symbol}", Distribution("rectangular", half), "B",
+                           f"±{half:g} g/mol ({source}), rectangular, divisor sqrt(3)"),) if half > 0 else ()
+        quantities.append(Quantity(f"Ar.{symbol}", value, "g/mol", comps, description=f"atomic weight of {symbol}",
+                                   model="molar_mass", location=location))
+        terms.append(f"{n} * Ar.{symbol}")
         total += n * value
-        working.append(f"{symbol} × {n}: {value:g} ± {half:g} ({source})")
-        if half > 0:
-            comps.append(Component(f"atomic weight of {symbol} × {n}", Distribution("rectangular", n * half), "B",
-                                   f"{n} × ±{half:g} g/mol, rectangular, divisor sqrt(3)"))
+        working.append(f"{symbol} × {n}: {value:g} ± {half:g} g/mol ({source})")
     working.append(f"M({mm.formula}) = {total:.6f} g/mol")
-    q = Quantity(name=name, value=total, unit="g/mol", components=tuple(comps), description=spec.description or "",
-                 model="molar_mass", working=tuple(working), location=location)
-    return Derived((q,))
+    return Derived(tuple(quantities), expression=" + ".join(terms), working=tuple(working))

@@ -90,6 +90,9 @@ def gum_json(budget: Budget, result: GumResult) -> dict[str, Any]:
             for c in result.contributions
         ],
         "inputs": {name: quantity_json(q) for name, q in budget.quantities.items()},
+        "defined_inputs": {name: {"model": model, "expression": next(
+            (line.text for line in budget.model.lines if line.name == name), ""), "working": list(lines)}
+            for name, (model, lines) in budget.working.items()},
         "notes": list(result.notes),
         "warnings": list(budget.warnings),
     }

@@ -85,7 +85,7 @@ def render_gum(console: Console, budget: Budget, result: GumResult) -> None:
                       dof_text(row.dof), num(row.sensitivity, 4), num(row.contribution, 3),
                       f"{100 * row.index:.1f}")
     console.print(table)
-    console.print(f"u_c = {num(result.standard_uncertainty, 3)} {mu}, effective dof "
+    console.print(f"u_c = {num(result.standard_uncertainty, 3)}{' ' + mu if mu else ''}, effective dof "
                   f"{dof_text(result.effective_dof)}" + (", second-order terms included" if result.second_order
                                                          else ""))
     console.print("[bold]" + result_line(result.measurand, result.value, mu, result.expanded_uncertainty,
@@ -99,9 +99,14 @@ def render_working(console: Console, budget: Budget) -> None:
     from rich.markup import escape
 
     shown = [q for q in budget.quantities.values() if q.working]
-    if not shown:
+    if not shown and not budget.working:
         return
     console.print("[bold]Derived inputs[/bold]")
+    for name, (model, lines) in budget.working.items():
+        if lines:
+            console.print(escape(f"  {name} ({model}): defined in the model"))
+            for line in lines:
+                console.print(escape(f"    {line}"))
     for q in shown:
         unit = f" {_unit(q.unit)}" if q.unit else ""
         console.print(escape(f"  {q.name} ({q.model}): {num(q.value, 7)}{unit}, u = {num(q.standard_uncertainty, 3)}"
