@@ -27,6 +27,13 @@ EXIT_BAD_INPUT = 2
 class Format(StrEnum):
     text = "text"
     json = "json"
+    md = "md"
+    csv = "csv"
+
+
+class ReportFormat(StrEnum):
+    html = "html"
+    md = "md"
 
 
 BudgetArg = Annotated[Path, typer.Argument(help="budget file (YAML, format version 1)", show_default=False)]
@@ -94,9 +101,48 @@ def run(
 
         typer.echo(dumps(evaluation_json(result.budget, result.gum, result.mc)))
         return
+    if format is Format.csv:
+        from .reports.csvout import budget_table
+
+        typer.echo(budget_table(result.gum), nl=False)
+        return
+    if format is Format.md:
+        from .workflow import render_report
+
+        typer.echo(render_report(result, "md"), nl=False)
+        return
     from .reports.text import render_evaluation
 
     render_evaluation(_console(), result.budget, result.gum, result.mc, show_gum=method is not Method.mc)
+
+
+@app.command("report")
+def report_command(
+    budget: BudgetArg,
+    output: Annotated[Path, typer.Option("--output", "-o", help="report file to write", show_default=False)],
+    format: Annotated[ReportFormat | None, typer.Option("--format", "-f",
+                                                        help="html or md (default: from the file name)")] = None,
+    method: Annotated[Method, typer.Option("--method", "-m", help="GUM, Monte Carlo, or both")] = Method.both,
+    trials: Annotated[int, typer.Option("--trials", "-n", min=100, help="Monte Carlo trials")] = 1_000_000,
+    seed: Annotated[int | None, typer.Option("--seed", min=0, help="Monte Carlo seed (default: fresh, reported)")]
+    = None,
+    digits: Annotated[int, typer.Option("--digits", min=1, max=4, help="significant digits of U")] = 2,
+    force: Annotated[bool, typer.Option("--force", help="replace an existing output file")] = False,
+) -> None:
+    """Write a self-contained HTML (or Markdown) report of a budget for the accreditation file."""
+    from .errors import UcalcError
+    from .workflow import MonteCarloOptions, report
+
+    fmt = format.value if format else ("md" if output.suffix.lower() in (".md", ".markdown") else "html")
+    options = MonteCarloOptions(trials=trials, seed=seed)
+    try:
+        with _progress(method is not Method.gum and trials >= 2_000_000) as progress:
+            written = report(budget, output, fmt=fmt, method=method.value, mc=options, force=force, digits=digits,
+                             progress=progress)
+    except UcalcError as exc:
+        _fail(exc)
+        return
+    typer.echo(f"wrote {written}")
 
 
 @contextmanager

@@ -66,3 +66,29 @@ def evaluate(path: str | Path, *, method: Method = "gum", second_order: bool = F
              mc: MonteCarloOptions | None = None, progress: Progress | None = None) -> Evaluation:
     """Load a budget file and evaluate it (see :func:`evaluate_budget`)."""
     return evaluate_budget(check_budget(path), method=method, second_order=second_order, mc=mc, progress=progress)
+
+
+def render_report(evaluation: Evaluation, fmt: Literal["html", "md"], *, digits: int = 2) -> str:
+    """The report document for an evaluation, as HTML (with charts) or Markdown."""
+    from .reports import document
+
+    context = document.build(evaluation.budget, evaluation.gum, evaluation.mc, digits=digits, charts=fmt == "html")
+    if fmt == "html":
+        from .reports import html
+
+        return html.render(context)
+    from .reports import markdown
+
+    return markdown.render(context)
+
+
+def report(path: str | Path, output: str | Path, *, fmt: Literal["html", "md"] = "html", method: Method = "both",
+           mc: MonteCarloOptions | None = None, force: bool = False, digits: int = 2,
+           progress: Progress | None = None) -> Path:
+    """Evaluate a budget and write its report atomically (never over the budget; existing file only if forced)."""
+    from .outputs import OutputError, write_atomic
+
+    if Path(output).exists() and not force:
+        raise OutputError(output, "exists already; use --force to replace it")
+    evaluation = evaluate(path, method=method, mc=mc, progress=progress)
+    return write_atomic(output, render_report(evaluation, fmt, digits=digits), force=force, inputs=[path])

@@ -39,3 +39,21 @@ def result_line(symbol: str, value: float, unit: str, U: float, k: float, probab
     unit_part = f" {unit}" if unit else ""
     tail = f"k = {k:.2f}" + (f", coverage probability {probability_text(probability)}" if probability else "")
     return f"{symbol} = {y_text}{unit_part}, U = {u_text}{unit_part} ({tail})"
+
+
+def statement(symbol: str, value: float, unit: str, U: float, k: float, probability: float | None,
+              digits: int = 2) -> str:
+    """A result statement in the manner of JCGM 100 7.2.6: 'c = (9.84 ± 0.62) µg/L, k = 2.00, ...'.
+
+    U is rounded to ``digits`` significant digits and y to the same decimal place; the relative expanded
+    uncertainty follows. With a fixed k the Gaussian probability it corresponds to is stated as approximate.
+    """
+    y_text, u_text = round_pair(value, U, digits)
+    unit_part = f" {unit}" if unit else ""
+    if probability is not None:
+        tail = f"k = {k:.2f}, coverage probability about {probability_text(probability)}"
+    else:
+        gaussian = math.erf(k / math.sqrt(2.0))
+        tail = f"k = {k:.2f} (about {probability_text(round(gaussian, 2))} for a normal distribution)"
+    relative = f"; relative U = {100 * U / abs(value):.2g} %" if value and math.isfinite(U) and U > 0 else ""
+    return f"{symbol} = ({y_text} ± {u_text}){unit_part}, {tail}{relative}"

@@ -1,0 +1,87 @@
+"""The HTML report in a real browser: headless Chromium (Debian's package, installed by .ci/run).
+
+Checks that the page loads without console errors, that every chart is visible and not blank, that the print
+layout fits the printable width of A4 and Letter, and that the printed PDF has the expected number of pages.
+Skips, saying why, only where Chromium is absent outside CI.
+"""
+
+from __future__ import annotations
+
+import io
+import os
+import shutil
+
+import pytest
+from typer.testing import CliRunner
+
+from ucalc.cli import app
+
+from .conftest import BUDGETS
+
+CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
+ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking", "--disable-component-update",
+        "--disable-sync", "--no-first-run", "--disable-quic"]
+# pages of the stock-standard report (GUM + Monte Carlo) when printed; pinned from the layout  # common practice
+EXPECTED_PAGES = {"A4": 3, "Letter": 3}
+
+
+def _require_browser():  # type: ignore[no-untyped-def]
+    try:
+        from playwright.sync_api import sync_playwright
+    except ImportError:
+        sync_playwright = None
+    if CHROMIUM and sync_playwright:
+        return sync_playwright
+    reason = "Chromium (Debian package 'chromium') or the playwright package is not installed"
+    if os.environ.get("CI"):
+        pytest.fail(f"{reason}, but CI must run this test")
+    pytest.skip(reason)
+
+
+@pytest.fixture(scope="module")
+def report_file(tmp_path_factory):
+    out = tmp_path_factory.mktemp("report") / "stock.html"
+    result = CliRunner().invoke(app, ["report", str(BUDGETS / "stock-standard.yaml"), "-o", str(out),
+                                      "--seed", "3", "-n", "50000"])
+    assert result.exit_code == 0, result.output
+    return out
+
+
+def test_report_in_headless_chromium(report_file) -> None:
+    from PIL import Image, ImageStat
+    from pypdf import PdfReader
+
+    sync_playwright = _require_browser()
+    with sync_playwright() as p:
+        browser = p.chromium.launch(executable_path=CHROMIUM, args=ARGS)
+        page = browser.new_page(viewport={"width": 1000, "height": 1400})
+        problems: list[str] = []
+        page.on("console", lambda m: problems.append(m.text) if m.type == "error" else None)
+        page.on("pageerror", lambda e: problems.append(str(e)))
+        page.on("request", lambda r: problems.append(f"request {r.url}") if not r.url.startswith("file:") else None)
+        page.goto(report_file.as_uri())
+        assert problems == []
+
+        charts = page.locator("figure svg")
+        assert charts.count() == 2
+        for i in range(charts.count()):
+            chart = charts.nth(i)
+            assert chart.is_visible()
+            box = chart.bounding_box()
+            assert box is not None and box["width"] > 300 and box["height"] > 100
+            image = Image.open(io.BytesIO(chart.screenshot())).convert("L")
+            stats = ImageStat.Stat(image)
+            assert stats.stddev[0] > 10, "chart is blank"
+            dark = sum(image.histogram()[:128]) / (image.width * image.height)
+            assert 0.005 < dark < 0.6, "chart has no drawing or is a solid block"
+
+        page.emulate_media(media="print")
+        for width_px in (703, 737):  # printable width of A4 and Letter with the 12 mm side margins, at 96 px/in
+            page.set_viewport_size({"width": width_px, "height": 1000})
+            overflow = page.evaluate("document.documentElement.scrollWidth - document.documentElement.clientWidth")
+            assert overflow <= 0, f"content wider than the printable width ({width_px} px)"
+
+        for paper, pages in EXPECTED_PAGES.items():
+            pdf = page.pdf(format=paper, print_background=True, prefer_css_page_size=False)
+            assert len(PdfReader(io.BytesIO(pdf)).pages) == pages, paper
+        browser.close()

@@ -1,0 +1,111 @@
+"""Reports and result statements: content, self-containment, formats and safe writes."""
+
+from __future__ import annotations
+
+import csv
+import hashlib
+import io
+import json
+import re
+
+import pytest
+from typer.testing import CliRunner
+
+from ucalc.cli import app
+from ucalc.reports.common import statement
+
+from .conftest import BUDGETS
+
+runner = CliRunner()
+STOCK = BUDGETS / "stock-standard.yaml"
+
+
+@pytest.mark.parametrize(
+    ("args", "expected"),
+    [
+        # JCGM 100 7.2.6 style: U to two significant digits, y to the same place  # common practice
+        (("c", 9.8421, "µg/L", 0.6234, 2.0, 0.95),
+         "c = (9.84 ± 0.62) µg/L, k = 2.00, coverage probability about 95 %; relative U = 6.3 %"),
+        (("c", 9.8421, "µg/L", 0.0995, 2.0, 0.95),
+         "c = (9.84 ± 0.10) µg/L, k = 2.00, coverage probability about 95 %; relative U = 1 %"),
+        (("c", 123.4, "mg/L", 9.96, 2.0, None),
+         "c = (123 ± 10) mg/L, k = 2.00 (about 95 % for a normal distribution); relative U = 8.1 %"),
+        (("x", 0.5, "", 0.0123, 2.57, 0.95),
+         "x = (0.500 ± 0.012), k = 2.57, coverage probability about 95 %; relative U = 2.5 %"),
+    ],
+)
+def test_statement_table(args, expected: str) -> None:
+    assert statement(*args) == expected
+
+
+def test_html_report_is_self_contained_and_complete(tmp_path) -> None:
+    out = tmp_path / "stock.html"
+    result = runner.invoke(app, ["report", str(STOCK), "-o", str(out), "--seed", "7", "-n", "20000"])
+    assert result.exit_code == 0, result.output
+    html = out.read_text(encoding="utf-8")
+    assert "<script" not in html
+    external = re.findall(r'(?:src|href)\s*=\s*"(?!#)([^"]+)"', html)
+    assert external == []  # nothing to fetch: inline CSS, inline SVG
+    assert hashlib.sha256(STOCK.read_bytes()).hexdigest() in html
+    assert "Monte Carlo seed</dt><dd>7</dd>" in html
+    for section in ("Result", "Measurement model", "Budget table", "Inputs and their uncertainty components",
+                    "Monte Carlo check", "Caution."):
+        assert section in html
+    assert html.count("<svg") == 2
+    data = json.loads(runner.invoke(app, ["run", str(STOCK), "-f", "json"]).stdout)
+    expected = statement("c_std", data["value"], "mg/L", data["expanded_uncertainty"], data["coverage_factor"],
+                         data["coverage_probability"])
+    assert expected in html
+    assert "fill repeatability" in html and "divisor" in html
+
+
+def test_markdown_twin(tmp_path) -> None:
+    out = tmp_path / "stock.md"
+    assert runner.invoke(app, ["report", str(STOCK), "-o", str(out), "--seed", "7", "-n", "20000"]).exit_code == 0
+    md = out.read_text(encoding="utf-8")
+    assert md.startswith("# Stock standard")
+    assert "| V |" in md and "## Monte Carlo check" in md and "SHA-256" in md
+    assert "c_std = (1002.7 ± 1.6) mg/L" in md
+
+
+def test_report_never_overwrites_without_force_nor_the_budget(tmp_path) -> None:
+    out = tmp_path / "r.html"
+    out.write_text("keep me", encoding="utf-8")
+    r = runner.invoke(app, ["report", str(STOCK), "-o", str(out), "-m", "gum"])
+    assert r.exit_code == 2 and "exists already; use --force" in r.stderr
+    assert out.read_text(encoding="utf-8") == "keep me"
+    assert runner.invoke(app, ["report", str(STOCK), "-o", str(out), "-m", "gum", "--force"]).exit_code == 0
+    assert out.read_text(encoding="utf-8").startswith("<!DOCTYPE html>")
+    budget = tmp_path / "b.yaml"
+    budget.write_bytes(STOCK.read_bytes())
+    r = runner.invoke(app, ["report", str(budget), "-o", str(budget), "-m", "gum", "--force"])
+    assert r.exit_code == 2 and "is an input of this command" in r.stderr
+    assert budget.read_bytes() == STOCK.read_bytes()
+    assert [p.name for p in tmp_path.iterdir() if p.name.startswith(".")] == []  # no temporary file left
+
+
+def test_run_csv_budget_table_matches_json() -> None:
+    text = runner.invoke(app, ["run", str(STOCK), "-f", "csv"]).stdout
+    rows = list(csv.DictReader(io.StringIO(text)))
+    data = json.loads(runner.invoke(app, ["run", str(STOCK), "-f", "json"]).stdout)
+    assert [r["input"] for r in rows] == [c["input"] for c in data["contributions"]]
+    assert float(rows[0]["contribution"]) == data["contributions"][0]["contribution"]
+
+
+def test_run_markdown_output() -> None:
+    out = runner.invoke(app, ["run", str(STOCK), "-f", "md"])
+    assert out.exit_code == 0 and "## Budget table" in out.stdout and "| input |" in out.stdout
+
+
+def test_markdown_escapes_pipes_in_user_text(write_budget) -> None:
+    path = write_budget("ucalc: 1\ntitle: 'a | b'\nmeasurand: {symbol: y}\nmodel: 'y = x'\n"
+                        "inputs:\n  x: {value: 1, components: [{name: 'p|q', standard: 0.1}]}\n")
+    out = runner.invoke(app, ["run", str(path), "-f", "md"]).stdout
+    assert "p\\|q" in out
+
+
+def test_every_example_budget_reports(tmp_path) -> None:
+    for budget in sorted(BUDGETS.glob("*.yaml")):
+        out = tmp_path / f"{budget.stem}.html"
+        r = runner.invoke(app, ["report", str(budget), "-o", str(out), "--seed", "1", "-n", "5000"])
+        assert r.exit_code == 0, (budget.name, r.output)

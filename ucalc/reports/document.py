@@ -1,0 +1,94 @@
+"""The content of a report as plain, formatted values, shared by the HTML and Markdown renderings.
+
+Everything a reader needs to re-derive the numbers: budget identity (file SHA-256, seed), model, every input with
+its components and working, the budget table, the result statement, the Monte Carlo check and the caution.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import math
+from typing import TYPE_CHECKING, Any
+
+from .. import __version__, units
+from ..budget.definitions import Budget
+from ..engines.gum import GumResult
+from .common import CAUTION, dof_text, num, probability_text, statement
+
+if TYPE_CHECKING:
+    from ..engines.montecarlo import MonteCarloResult
+
+
+def pretty_unit(text: str) -> str:
+    if not text:
+        return ""
+    try:
+        return units.pretty(units.parse_unit(text))
+    except Exception:
+        return text
+
+
+def _divisor(c: Any) -> str:
+    shape = c.distribution.shape
+    return {"rectangular": "√3", "triangular": "√6", "arcsine": "√2"}.get(shape, "1")
+
+
+def build(budget: Budget, gum: GumResult, mc: MonteCarloResult | None = None, *, digits: int = 2,
+          charts: bool = True, generated: _dt.datetime | None = None) -> dict[str, Any]:
+    """A dictionary of strings and lists for the report templates."""
+    mu = pretty_unit(budget.measurand.unit)
+    when = generated or _dt.datetime.now(_dt.UTC)
+    inputs = []
+    for q in budget.quantities.values():
+        qu = pretty_unit(q.unit)
+        inputs.append({
+            "name": q.name, "model": q.model, "description": q.description, "value": num(q.value, 10), "unit": qu,
+            "u": num(q.standard_uncertainty, 3) if q.components else "exact", "dof": dof_text(q.dof),
+            "components": [{"name": c.name, "type": c.kind, "distribution": c.distribution.shape,
+                            "divisor": _divisor(c), "u": num(c.standard_uncertainty, 3), "dof": dof_text(c.dof),
+                            "origin": c.origin} for c in q.components],
+            "working": list(q.working),
+        })
+    defined = [{"name": name, "model": model, "working": list(lines)}
+               for name, (model, lines) in budget.working.items() if lines]
+    rows = [{"input": r.input, "value": num(r.value, 8), "unit": pretty_unit(r.unit),
+             "u": num(r.standard_uncertainty, 3), "type": r.kind, "distribution": r.shape, "dof": dof_text(r.dof),
+             "c": num(r.sensitivity, 4), "contribution": num(r.contribution, 3), "index": f"{100 * r.index:.1f}"}
+            for r in gum.contributions]
+    result = {
+        "statement": statement(gum.measurand, gum.value, mu, gum.expanded_uncertainty, gum.coverage_factor,
+                               gum.coverage_probability, digits),
+        "value": num(gum.value, 10), "u": num(gum.standard_uncertainty, 4), "dof": dof_text(gum.effective_dof),
+        "k": f"{gum.coverage_factor:.3f}", "U": num(gum.expanded_uncertainty, 4),
+        "p": probability_text(gum.coverage_probability) if gum.coverage_probability else "fixed k",
+        "second_order": gum.second_order, "notes": list(gum.notes),
+    }
+    data: dict[str, Any] = {
+        "title": budget.title, "symbol": budget.measurand.symbol, "unit": mu,
+        "description": budget.measurand.description, "date": when.strftime("%Y-%m-%d %H:%M UTC"),
+        "version": __version__, "sha256": budget.sha256, "source": budget.source,
+        "model": [f"{line.name} = {line.text}" for line in budget.model.lines],
+        "inputs": inputs, "defined": defined, "rows": rows, "result": result, "warnings": list(budget.warnings),
+        "caution": CAUTION, "mc": None, "charts": {},
+    }
+    if mc is not None:
+        v = mc.validation
+        data["mc"] = {
+            "trials": f"{mc.trials:,}", "seed": str(mc.seed), "mean": num(mc.value, 10),
+            "sd": num(mc.standard_uncertainty, 4), "p": probability_text(mc.coverage_probability),
+            "interval": f"[{num(mc.interval[0], 8)}, {num(mc.interval[1], 8)}]",
+            "shortest": f"[{num(mc.shortest_interval[0], 8)}, {num(mc.shortest_interval[1], 8)}]",
+            "nonfinite": mc.nonfinite, "adaptive": mc.adaptive, "stages": mc.stages, "notes": list(mc.notes),
+            "validation": None if v is None else {
+                "delta": num(v.delta, 2), "d_low": num(v.d_low, 2), "d_high": num(v.d_high, 2),
+                "digits": v.digits, "passed": v.passed,
+                "gum_interval": f"[{num(v.gum_interval[0], 8)}, {num(v.gum_interval[1], 8)}]"},
+        }
+    if charts:
+        from . import charts as drawing
+
+        if gum.contributions and any(r.contribution > 0 for r in gum.contributions):
+            data["charts"]["contributions"] = drawing.contribution_chart(gum, mu)
+        if mc is not None and math.isfinite(mc.standard_uncertainty):
+            data["charts"]["distribution"] = drawing.distribution_chart(gum, mc, mu)
+    return data
