@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 
 import pytest
-from hypothesis import given, settings
+from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
 from ucalc import expr
@@ -74,6 +74,7 @@ SMOOTH = ["x * y", "x / y", "x ** 2 * y", "sqrt(x * y)", "exp(x / 3) * y", "log(
 @given(text=st.sampled_from(SMOOTH), x=st.floats(0.5, 2.5), y=st.floats(0.5, 2.5))
 def test_derivatives_match_central_differences(text: str, x: float, y: float) -> None:
     # numerical check of the symbolic derivative (central difference, step h = 1e-6, error O(h^2))
+    assume(not (text.startswith("abs") and abs(x - 3 * y) < 1e-3))  # abs has no derivative at its kink
     tree = expr.parse(text)
     f = expr.compile_tree(tree, expr.FLOAT_BACKEND)
     for name in ("x", "y"):
