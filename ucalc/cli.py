@@ -83,6 +83,8 @@ def run(
                                         help="significant digits of u for adaptive MC and validation")] = 2,
     seed: Annotated[int | None, typer.Option("--seed", min=0, help="Monte Carlo seed (default: fresh, reported)")]
     = None,
+    set_: Annotated[list[str] | None, typer.Option("--set", help="try a change, INPUT.FIELD=VALUE (repeatable)")]
+    = None,
 ) -> None:
     """Propagate a budget and print the budget table and the expanded uncertainty."""
     from .errors import UcalcError
@@ -92,7 +94,7 @@ def run(
     try:
         with _progress(method is not Method.gum and (adaptive or trials >= 2_000_000)) as progress:
             result = evaluate(budget, method=method.value, second_order=second_order, mc=options,
-                              progress=progress)
+                              progress=progress, settings=set_)
     except UcalcError as exc:
         _fail(exc)
         return
@@ -143,6 +145,43 @@ def report_command(
         _fail(exc)
         return
     typer.echo(f"wrote {written}")
+
+
+@app.command("improve")
+def improve_command(
+    budget: BudgetArg,
+    target: Annotated[str | None, typer.Option("--target", "-t",
+                                               help="expanded uncertainty to reach, e.g. 0.5 or 5%")] = None,
+    format: Annotated[Format, typer.Option("--format", "-f", help="text or json")] = Format.text,
+    chart: Annotated[Path | None, typer.Option("--chart", help="also write the chart as SVG")] = None,
+    set_: Annotated[list[str] | None, typer.Option("--set", help="start from a changed budget, INPUT.FIELD=VALUE")]
+    = None,
+    force: Annotated[bool, typer.Option("--force", help="replace an existing chart file")] = False,
+) -> None:
+    """What each change would buy in U, the step to improve first, and whether a target is reachable."""
+    from .errors import UcalcError
+    from .workflow import improve
+
+    try:
+        if format not in (Format.text, Format.json):
+            raise UcalcError("--format for improve is text or json")
+        result = improve(budget, target=target, settings=set_)
+        if chart is not None:
+            from .outputs import write_atomic
+            from .reports.improvement import chart as draw
+
+            write_atomic(chart, draw(result), force=force, inputs=[budget])
+    except UcalcError as exc:
+        _fail(exc)
+        return
+    from .reports import improvement
+
+    if format is Format.json:
+        from .reports.jsonout import dumps
+
+        typer.echo(dumps(improvement.to_json(result)))
+        return
+    improvement.render(_console(), result)
 
 
 @contextmanager

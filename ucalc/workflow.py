@@ -4,13 +4,14 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from pathlib import Path
-from typing import TYPE_CHECKING, Literal
+from typing import TYPE_CHECKING, Any, Literal
 
 from .budget.definitions import Budget
 from .engines.gum import GumResult
 
 if TYPE_CHECKING:
     from .engines.montecarlo import MonteCarloResult, Progress
+    from .planning import Improvement
 
 Method = Literal["gum", "mc", "both"]
 
@@ -63,9 +64,11 @@ def evaluate_budget(budget: Budget, *, method: Method = "gum", second_order: boo
 
 
 def evaluate(path: str | Path, *, method: Method = "gum", second_order: bool = False,
-             mc: MonteCarloOptions | None = None, progress: Progress | None = None) -> Evaluation:
-    """Load a budget file and evaluate it (see :func:`evaluate_budget`)."""
-    return evaluate_budget(check_budget(path), method=method, second_order=second_order, mc=mc, progress=progress)
+             mc: MonteCarloOptions | None = None, progress: Progress | None = None,
+             settings: list[str] | None = None) -> Evaluation:
+    """Load a budget file, apply ``--set`` changes, and evaluate it (see :func:`evaluate_budget`)."""
+    budget = load_with_settings(path, settings)[1] if settings else check_budget(path)
+    return evaluate_budget(budget, method=method, second_order=second_order, mc=mc, progress=progress)
 
 
 def render_report(evaluation: Evaluation, fmt: Literal["html", "md"], *, digits: int = 2) -> str:
@@ -92,3 +95,24 @@ def report(path: str | Path, output: str | Path, *, fmt: Literal["html", "md"] =
         raise OutputError(output, "exists already; use --force to replace it")
     evaluation = evaluate(path, method=method, mc=mc, progress=progress)
     return write_atomic(output, render_report(evaluation, fmt, digits=digits), force=force, inputs=[path])
+
+
+def load_with_settings(path: str | Path, settings: list[str] | None = None) -> tuple[Any, Budget]:
+    """The budget's parsed document and the budget built from it, with ``--set`` changes applied."""
+    import dataclasses
+
+    from .budget.load import build_budget, load_document
+    from .scenarios import apply_settings
+
+    doc = load_document(path)
+    if settings:
+        doc = dataclasses.replace(doc, data=apply_settings(doc.data, settings))
+    return doc, build_budget(doc, sha_of=path)
+
+
+def improve(path: str | Path, *, target: str | None = None, settings: list[str] | None = None) -> Improvement:
+    """What each change to the budget would buy, and the fewest actions that reach ``target``."""
+    from .planning import improve as plan
+
+    doc, budget = load_with_settings(path, settings)
+    return plan(doc, budget, target)

@@ -26,15 +26,17 @@ from .yamlio import Document, PathKey, load_yaml, parse_yaml
 _LINE = re.compile(r"^(\s*)([A-Za-z][A-Za-z0-9_]*)\s*=(?!=)(.*)$")
 
 
-def load_budget(path: str | Path) -> Budget:
-    """Read, validate and build a budget file; raise :class:`BudgetErrors` listing every problem."""
+def load_document(path: str | Path) -> Document:
+    """Read a budget file's YAML with locations; raise :class:`BudgetErrors` on a file or syntax problem."""
     try:
-        doc = load_yaml(path)
+        return load_yaml(path)
     except BudgetError as exc:
         raise BudgetErrors([exc]) from None
-    budget = build_budget(doc)
-    digest = hashlib.sha256(Path(path).read_bytes()).hexdigest()
-    return _replace(budget, sha256=digest)
+
+
+def load_budget(path: str | Path) -> Budget:
+    """Read, validate and build a budget file; raise :class:`BudgetErrors` listing every problem."""
+    return build_budget(load_document(path), sha_of=path)
 
 
 def load_budget_text(text: str, file: str = "<budget>") -> Budget:
@@ -43,8 +45,7 @@ def load_budget_text(text: str, file: str = "<budget>") -> Budget:
         doc = parse_yaml(text, file)
     except BudgetError as exc:
         raise BudgetErrors([exc]) from None
-    budget = build_budget(doc)
-    return _replace(budget, sha256=hashlib.sha256(text.encode("utf-8")).hexdigest())
+    return build_budget(doc)
 
 
 def _replace(budget: Budget, **changes: Any) -> Budget:
@@ -135,8 +136,17 @@ def validation_errors(
 # ---- building --------------------------------------------------------------------------------------------
 
 
-def build_budget(doc: Document) -> Budget:
-    """Validate and build a parsed document; raise :class:`BudgetErrors` with every problem found."""
+def build_budget(doc: Document, sha_of: str | Path | None = None) -> Budget:
+    """Validate and build a parsed document; raise :class:`BudgetErrors` with every problem found.
+
+    ``sha_of``: the file whose SHA-256 identifies the budget in reports (default: the document's text).
+    """
+    budget = _build(doc)
+    raw = Path(sha_of).read_bytes() if sha_of is not None else doc.text.encode("utf-8")
+    return _replace(budget, sha256=hashlib.sha256(raw).hexdigest())
+
+
+def _build(doc: Document) -> Budget:
     errors: list[BudgetError] = []
     data = doc.data
     if not isinstance(data, dict):

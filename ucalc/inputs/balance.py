@@ -9,7 +9,7 @@ so twice, as CG4 counts linearity twice (A1.4); the certificate term is taken on
 from __future__ import annotations
 
 import math
-from typing import ClassVar
+from typing import Any, ClassVar
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
@@ -101,3 +101,15 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
     q = Quantity(name=name, value=mass, unit=unit, components=comps, description=spec.description or "",
                  model="balance", working=tuple(working), location=location)
     return Derived((q,))
+
+
+def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
+    """A finer balance: one more digit of readability and a tenth of the linearity limit."""
+    block = dict(raw["balance"])
+    changed = False
+    for key in ("readability", "linearity"):
+        if key in block:
+            block[key] = float(block[key]) / 10
+            changed = True
+    return [("a balance with one more digit (readability and linearity / 10)", {**raw, "balance": block})] \
+        if changed else []

@@ -210,3 +210,37 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
     if intercept is not None:
         quantities.append(intercept)
     return Derived(tuple(quantities), tuple(correlations), warnings=tuple(warnings))
+
+
+VIRTUAL_FIELDS = ("p",)
+
+
+def set_field(raw: dict[str, Any], field: str, value: Any) -> dict[str, Any] | None:
+    """``p``: read the sample ``value`` times (the readings given, repeated, keep their mean)."""
+    if field != "p":
+        return None
+    sample = raw["calibration"].get("sample")
+    if not sample:
+        raise ValueError("p applies to a calibration with sample readings")
+    if not isinstance(value, int) or isinstance(value, bool) or value < 1:
+        raise ValueError(f"p must be a whole number of readings (got {value!r})")
+    mean = math.fsum(sample) / len(sample)
+    return {**raw, "calibration": {**raw["calibration"], "sample": [mean] * value}}
+
+
+def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
+    """More sample readings (p to 2p, 3p), and every standard measured once more."""
+    block = raw["calibration"]
+    out = []
+    sample = block.get("sample")
+    if sample:
+        p = len(sample)
+        for k in (2, 3):
+            changed = set_field(raw, "p", k * p)
+            assert changed is not None
+            out.append((f"{k * p} sample readings instead of {p}", changed))
+    responses = [r if isinstance(r, list) else [r] for r in block["responses"]]
+    doubled = [r + r for r in responses]  # as if each standard were measured again with the same responses
+    out.append(("every calibration standard measured twice as often",
+                {**raw, "calibration": {**block, "responses": doubled}}))
+    return out

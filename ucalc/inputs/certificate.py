@@ -7,7 +7,7 @@ distribution, rectangular by default, as CG4 treats a purity stated as a bare in
 from __future__ import annotations
 
 import math
-from typing import ClassVar, Literal
+from typing import Any, ClassVar, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
@@ -68,3 +68,11 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
                  working=(f"certified value {spec.certificate.value:g}{' ' + unit if unit else ''}; {comp.origin}",),
                  location=location)
     return Derived((q,))
+
+
+def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
+    """A better certificate: half the stated uncertainty."""
+    block = dict(raw["certificate"])
+    key = "expanded" if "expanded" in block else "half_width"
+    block[key] = float(block[key]) / 2
+    return [("a certificate with half the uncertainty", {**raw, "certificate": block})]

@@ -63,3 +63,30 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
         factors.append(f"({name}.s{i}_final / {name}.s{i}_aliquot)")
     return Derived(tuple(quantities), tuple(correlations), expression=" * ".join(factors),
                    warnings=tuple(warnings))
+
+
+def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
+    """Per step: each item's own actions, and a larger aliquot with a proportionally larger final volume."""
+    from ..scenarios import actions_for
+    from .glassware import larger
+
+    out = []
+    steps = raw["dilution"]
+    for i, step in enumerate(steps):
+        for role in ("aliquot", "final"):
+            for label, item in actions_for(step[role]):
+                if role == "aliquot" and "balance" in item and "glassware" in step["final"]:
+                    continue  # weighing an aliquot into a volumetric flask mixes mass and volume
+                if role == "final" and "balance" in item and "glassware" in step["aliquot"]:
+                    continue
+                new_steps = [dict(s) for s in steps]
+                new_steps[i][role] = item
+                out.append((f"step {i + 1} {role}: {label}", {**raw, "dilution": new_steps}))
+        both = [(larger(step["aliquot"], f), larger(step["final"], f)) for f in (2, 2.5, 5, 10)]
+        pair = next(((a, b, f) for (a, b), f in zip(both, (2, 2.5, 5, 10), strict=True) if a and b), None)
+        if pair:
+            new_steps = [dict(s) for s in steps]
+            new_steps[i] = {"aliquot": pair[0], "final": pair[1]}
+            out.append((f"step {i + 1}: aliquot and final volume ×{pair[2]:g} (same factor)",
+                        {**raw, "dilution": new_steps}))
+    return out

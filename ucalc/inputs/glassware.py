@@ -9,7 +9,7 @@ Temperature: the volume of water changes by 2.1e-4 /K, over the stated span, rec
 from __future__ import annotations
 
 import math
-from typing import ClassVar, Literal
+from typing import Any, ClassVar, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
@@ -139,3 +139,43 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
     q = Quantity(name=name, value=spec.glassware.nominal, unit=unit, components=comps,
                  description=spec.description or "", model="glassware", working=tuple(working), location=location)
     return Derived((q,))
+
+
+def _next_size(item: str, nominal_ml: float, factor: float) -> float | None:
+    table = TABLES[item][1] if item in TABLES else PISTON_ISO8655
+    wanted = nominal_ml * factor if item in TABLES else nominal_ml * factor * 1000
+    match = next((size for size in table if math.isclose(size, wanted, rel_tol=1e-9)), None)
+    if match is None:
+        return None
+    return match if item in TABLES else match / 1000
+
+
+def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
+    """Class A instead of B, and weighing instead of measuring the volume."""
+    block = raw["glassware"]
+    out = []
+    if block.get("class") == "B":
+        out.append((f"class A {block['item']} instead of class B", {**raw, "glassware": {**block, "class": "A"}}))
+    unit = raw.get("unit") or block.get("unit") or "mL"
+    try:
+        grams = _in_ml(float(block["nominal"]), unit)  # water, about 1 g/mL: a balance reading of the same mass
+    except (KeyError, TypeError, ValueError):
+        return out
+    weighing = {"unit": "g", "balance": {"reading": grams, "readability": 0.0001, "linearity": 0.0002,
+                                         "by_difference": True}}
+    if "description" in raw:
+        weighing["description"] = raw["description"]
+    out.append(("weigh instead (0.1 mg balance, by difference)", weighing))
+    return out
+
+
+def larger(raw: dict[str, Any], factor: float) -> dict[str, Any] | None:
+    """The same item at ``factor`` times the nominal volume, if the tables hold that size (for dilutions)."""
+    block = raw.get("glassware")
+    if not isinstance(block, dict):
+        return None
+    unit = raw.get("unit") or block.get("unit") or "mL"
+    size = _next_size(block.get("item", ""), _in_ml(float(block["nominal"]), unit), factor)
+    if size is None:
+        return None
+    return {**raw, "glassware": {**block, "nominal": float(block["nominal"]) * factor}}

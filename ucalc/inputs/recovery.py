@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import math
 import statistics
-from typing import ClassVar
+from typing import Any, ClassVar
 
 from pydantic import BaseModel, ConfigDict, Field
 
@@ -99,3 +99,16 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
     q = Quantity(name=name, value=value, unit="", components=tuple(comps), description=spec.description or "",
                  model="recovery", working=tuple(working), location=location)
     return Derived((q,))
+
+
+def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
+    """Twice as many results on the reference material (same mean and scatter); a better-known reference."""
+    from .certificate import actions as certificate_actions
+
+    block = raw["recovery"]
+    found = list(block["found"])
+    out = [(f"{2 * len(found)} results on the reference instead of {len(found)}",
+            {**raw, "recovery": {**block, "found": found + found}})]
+    for label, better in certificate_actions({"certificate": block["reference"]}):
+        out.append((f"reference material: {label}", {**raw, "recovery": {**block, "reference": better["certificate"]}}))
+    return out

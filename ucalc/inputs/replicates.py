@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import math
 import statistics
-from typing import ClassVar
+from typing import Any, ClassVar
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
@@ -89,3 +89,37 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
     q = Quantity(name=name, value=mean, unit=spec.unit or "", components=(comp,),
                  description=spec.description or "", model="replicates", working=tuple(working), location=location)
     return Derived((q,))
+
+
+VIRTUAL_FIELDS = ("n",)
+
+
+def _as_pooled(raw: dict[str, Any], n: int) -> dict[str, Any]:
+    """The same mean and standard deviation, averaged over ``n`` replicates (values become a pooled estimate)."""
+    spec = ReplicatesSpec.model_validate(raw["replicates"])
+    mean, _, dof, old_n, _ = evaluate(spec)
+    if spec.pooled is not None:
+        pooled = {"s": spec.pooled.s, "dof": spec.pooled.dof, "n": n, "relative": spec.pooled.relative}
+    else:
+        assert spec.values is not None
+        pooled = {"s": statistics.stdev(spec.values), "dof": dof, "n": n}
+    block = {"mean": mean, "pooled": pooled}
+    if spec.unit:
+        block["unit"] = spec.unit
+    return {**raw, "replicates": block}
+
+
+def set_field(raw: dict[str, Any], field: str, value: Any) -> dict[str, Any] | None:
+    """``n``: average ``value`` replicates with the same standard deviation (pooled from the data given)."""
+    if field != "n":
+        return None
+    if not isinstance(value, int) or isinstance(value, bool) or value < 1:
+        raise ValueError(f"n must be a whole number of replicates (got {value!r})")
+    return _as_pooled(raw, value)
+
+
+def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
+    """More replicates: n to 2n and 3n."""
+    spec = ReplicatesSpec.model_validate(raw["replicates"])
+    n = len(spec.values) if spec.values is not None else (spec.pooled.n if spec.pooled else 1) or 1
+    return [(f"{k * n} replicates instead of {n}", _as_pooled(raw, k * n)) for k in (2, 3)]

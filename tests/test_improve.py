@@ -1,0 +1,127 @@
+"""Improvement planning and scenarios: every figure against a budget recomputed with the change made by hand."""
+
+from __future__ import annotations
+
+import json
+import math
+
+import pytest
+from typer.testing import CliRunner
+
+from ucalc.budget.load import load_budget_text
+from ucalc.cli import app
+from ucalc.engines.gum import propagate
+
+from .conftest import BUDGETS
+
+runner = CliRunner()
+
+# three Type A inputs; k fixed so that U = 2 u_c exactly and the known answers below follow by hand
+KNOWN = """\
+ucalc: 1
+title: known answer
+measurand: {symbol: y}
+model: 'y = x1 + x2 + x3'
+coverage: {k: 2}
+inputs:
+  x1: {replicates: {values: [9.0, 11.0]}}      # s = sqrt(2), n = 2: u^2 = 1
+  x2: {replicates: {values: [19.0, 21.0]}}     # u^2 = 1
+  x3: {replicates: {values: [4.9, 5.1, 5.0, 5.0]}}
+"""
+
+
+def _u2_x3(n: int) -> float:
+    import statistics
+
+    return statistics.stdev([4.9, 5.1, 5.0, 5.0]) ** 2 / n
+
+
+def improve_json(path, *args: str) -> dict:
+    result = runner.invoke(app, ["improve", str(path), "-f", "json", *args])
+    assert result.exit_code == 0, result.output
+    return json.loads(result.stdout)
+
+
+def test_options_match_budgets_changed_by_hand(write_budget) -> None:
+    data = improve_json(write_budget(KNOWN))
+    assert data["expanded_uncertainty"] == pytest.approx(2 * math.sqrt(2 + _u2_x3(4)), rel=1e-12)
+    by = {(o["input"], o["action"]): o["expanded_uncertainty"] for o in data["options"]}
+    # x1 averaged over 4 replicates with the same s: written by hand as a pooled estimate
+    by_hand = KNOWN.replace("x1: {replicates: {values: [9.0, 11.0]}}",
+                            "x1: {replicates: {mean: 10.0, pooled: {s: 1.4142135623730951, dof: 1, n: 4}}}")
+    assert by[("x1", "4 replicates instead of 2")] == pytest.approx(
+        propagate(load_budget_text(by_hand)).expanded_uncertainty, rel=1e-12)
+    assert by[("x1", "uncertainty zero (bound)")] == pytest.approx(2 * math.sqrt(1 + _u2_x3(4)), rel=1e-12)
+    assert by[("x1", "uncertainty halved")] == pytest.approx(2 * math.sqrt(1.25 + _u2_x3(4)), rel=1e-12)
+    reductions = [o["reduction"] for o in data["options"]]
+    assert reductions == sorted(reductions, reverse=True)
+
+
+def test_target_search_finds_the_known_smallest_set(write_budget) -> None:
+    # u^2(x1) = u^2(x2) = 2/n. Target U = 1.8, i.e. u_c^2 <= 0.81: one action leaves at least 1 + 2/6; two at
+    # 2n and 2n give 1.0, 2n and 3n give 0.83; only 3n and 3n (2/3) reach it
+    data = improve_json(write_budget(KNOWN), "--target", "1.8")
+    plan = data["target"]
+    assert plan["reachable"] is True
+    assert sorted((a["input"], a["action"]) for a in plan["actions"]) == [
+        ("x1", "6 replicates instead of 2"), ("x2", "6 replicates instead of 2")]
+    assert plan["expanded_uncertainty"] == pytest.approx(2 * math.sqrt(2 / 3 + _u2_x3(4)), rel=1e-12)
+    assert "exhaustive" in plan["searched"]
+
+
+def test_unreachable_target_states_the_floor(write_budget) -> None:
+    data = improve_json(write_budget(KNOWN), "--target", "10%")  # 10 % of y = 35 is 3.5 > U: met already
+    assert data["target"]["reachable"] is True and data["target"]["actions"] == []
+    data = improve_json(write_budget(KNOWN), "--target", "0.5")
+    plan = data["target"]
+    assert plan["reachable"] is False
+    assert plan["floor"] == pytest.approx(2 * math.sqrt(2 / 3 + _u2_x3(12)), rel=1e-12)
+
+
+def test_improve_names_a_step_on_every_example() -> None:
+    for budget in sorted(BUDGETS.glob("*.yaml")):
+        result = runner.invoke(app, ["improve", str(budget), "--target", "1%"])
+        assert result.exit_code == 0, (budget.name, result.output)
+        assert "Target U ≤" in result.stdout
+        assert "step to improve first" in result.stdout or "bound" in result.stdout
+
+
+def test_set_changes_a_budget_like_editing_it(write_budget) -> None:
+    glass = (KNOWN.replace("x3: {replicates: {values: [4.9, 5.1, 5.0, 5.0]}}",
+                           "x3: {glassware: {item: flask, nominal: 100, class: B}}")
+             .replace("x1: {replicates", "x1: {unit: mL, replicates")
+             .replace("x2: {replicates", "x2: {unit: mL, replicates")
+             .replace("measurand: {symbol: y}", "measurand: {symbol: y, unit: mL}"))
+    path = write_budget(glass)
+    changed = json.loads(runner.invoke(app, ["run", str(path), "-f", "json", "--set", "x3.class=A",
+                                             "--set", "x1.n=4"]).stdout)
+    by_hand = glass.replace("class: B", "class: A").replace(
+        "x1: {unit: mL, replicates: {values: [9.0, 11.0]}}",
+        "x1: {unit: mL, replicates: {mean: 10.0, pooled: {s: 1.4142135623730951, dof: 1, n: 4}}}")
+    assert changed["expanded_uncertainty"] == pytest.approx(
+        propagate(load_budget_text(by_hand)).expanded_uncertainty, rel=1e-12)
+    assert path.read_text(encoding="utf-8") == glass  # the file is not touched
+
+
+def test_set_errors_list_valid_fields(write_budget) -> None:
+    path = write_budget(KNOWN)
+    r = runner.invoke(app, ["run", str(path), "--set", "x1.colour=red"])
+    assert r.exit_code == 2
+    assert "--set x1.colour=red: input 'x1': unknown field 'colour'; valid fields: n, replicates.values" in r.stderr
+    r = runner.invoke(app, ["run", str(path), "--set", "x9.n=3"])
+    assert r.exit_code == 2 and "unknown input 'x9'; inputs are x1, x2, x3" in r.stderr
+    r = runner.invoke(app, ["run", str(path), "--set", "x1.n=zero"])
+    assert r.exit_code == 2 and "n must be a whole number" in r.stderr
+    r = runner.invoke(app, ["run", str(path), "--set", "nonsense"])
+    assert r.exit_code == 2 and "write INPUT.FIELD=VALUE" in r.stderr
+
+
+def test_bad_target_is_refused(write_budget) -> None:
+    r = runner.invoke(app, ["improve", str(write_budget(KNOWN)), "--target", "lots"])
+    assert r.exit_code == 2 and "is not a number or a percentage" in r.stderr
+
+
+def test_improve_chart(tmp_path, write_budget) -> None:
+    out = tmp_path / "plan.svg"
+    r = runner.invoke(app, ["improve", str(write_budget(KNOWN)), "--chart", str(out)])
+    assert r.exit_code == 0 and out.read_text(encoding="utf-8").startswith("<svg")
