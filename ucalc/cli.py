@@ -184,6 +184,67 @@ def improve_command(
     improvement.render(_console(), result)
 
 
+class Rule(StrEnum):
+    simple = "simple"
+    guarded_acceptance = "guarded-acceptance"
+    guarded_rejection = "guarded-rejection"
+
+
+class Side(StrEnum):
+    upper = "upper"
+    lower = "lower"
+
+
+@app.command("batch")
+def batch_command(
+    budget: Annotated[Path, typer.Argument(help="budget file, or a folder of budgets (one per analyte)",
+                                           show_default=False)],
+    table: Annotated[Path, typer.Argument(help="samples table, .csv or .xlsx", show_default=False)],
+    output: Annotated[Path, typer.Option("--output", "-o", help="output table, .csv or .xlsx",
+                                         show_default=False)],
+    map_: Annotated[list[str] | None, typer.Option("--map", help="INPUT=COLUMN (repeatable)")] = None,
+    limit: Annotated[float | None, typer.Option("--limit", help="limit in the measurand's unit")] = None,
+    limit_column: Annotated[str | None, typer.Option("--limit-column", help="column holding each row's limit")]
+    = None,
+    rule: Annotated[Rule, typer.Option("--rule", help="decision rule (docs/batch.md)")] = Rule.simple,
+    side: Annotated[Side, typer.Option("--side", help="the limit is a maximum (upper) or minimum (lower)")]
+    = Side.upper,
+    loq: Annotated[float | None, typer.Option("--loq", help="limit of quantification")] = None,
+    loq_column: Annotated[str | None, typer.Option("--loq-column", help="column holding each row's LOQ")] = None,
+    analyte_column: Annotated[str, typer.Option("--analyte-column", help="column naming the analyte")]
+    = "analyte",
+    digits: Annotated[int, typer.Option("--digits", min=1, max=4, help="significant digits of U")] = 2,
+    force: Annotated[bool, typer.Option("--force", help="replace an existing output file")] = False,
+) -> None:
+    """Attach U, a result statement and (with a limit) a decision to every sample of a table."""
+    from .batch import BatchOptions, batch, parse_maps
+    from .errors import UcalcError
+
+    try:
+        if limit is not None and limit_column is not None:
+            raise UcalcError("give --limit or --limit-column, not both")
+        if loq is not None and loq_column is not None:
+            raise UcalcError("give --loq or --loq-column, not both")
+        options = BatchOptions(maps=parse_maps(map_ or []), limit=limit, limit_column=limit_column,
+                               rule=rule.value.replace("-", "_"), side=side.value,  # type: ignore[arg-type]
+                               loq=loq, loq_column=loq_column, analyte_column=analyte_column, digits=digits)
+        with _progress(True) as progress:
+            summary = batch(budget, table, output, options, force=force, progress=progress)
+    except UcalcError as exc:
+        _fail(exc)
+        return
+    decided = ", ".join(f"{count} {name}" for name, count in sorted(summary.decisions.items()))
+    line = f"{summary.output}: {summary.rows} rows, {summary.failed} failed"
+    if summary.below_loq:
+        line += f", {summary.below_loq} below the LOQ"
+    if summary.rule:
+        line += f"; decisions: {decided or 'none'} ({summary.rule})"
+    typer.echo(line)
+    if summary.failed:
+        typer.echo(f"{summary.failed} rows could not be computed; see the 'error' column", err=True)
+        raise typer.Exit(EXIT_BAD_INPUT)
+
+
 @contextmanager
 def _progress(wanted: bool) -> Iterator[Callable[[int, int], None] | None]:
     """A progress bar on stderr, only when stderr is a terminal and the run is long."""

@@ -24,6 +24,7 @@ class Component:
     distribution: Distribution
     kind: Literal["A", "B"] = "B"
     origin: str = ""
+    relative: bool = False  # the scale is proportional to the quantity's value (batch rows rescale it)
 
     @property
     def standard_uncertainty(self) -> float:

@@ -244,3 +244,31 @@ def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
     out.append(("every calibration standard measured twice as often",
                 {**raw, "calibration": {**block, "responses": doubled}}))
     return out
+
+
+def predict_many(spec: CalibrationSpec, responses: Any, readings: int | None = None) -> tuple[Any, Any, float, Any]:
+    """Vectorised x0 and u(x0) for many samples' mean responses (each the mean of ``readings`` readings, by
+    default as many as the budget's own sample); returns (x0, u, dof, out_of_range mask)."""
+    import numpy as np
+
+    f = fit(spec)
+    a, b = f["a"], f["b"]
+    if b == 0.0:
+        raise ValueError("the calibration slope is zero")
+    y0 = np.asarray(responses, dtype=float)
+    p = readings or (len(spec.sample) if spec.sample else 1)
+    x0 = (y0 - a) / b
+    with np.errstate(all="ignore"):
+        if spec.weighting == "none":
+            w0 = np.ones_like(x0)
+        elif spec.weighting == "inverse_x":
+            w0 = np.where(x0 > 0, 1.0 / x0, np.nan)
+        elif spec.weighting == "inverse_x2":
+            w0 = np.where(x0 > 0, 1.0 / x0**2, np.nan)
+        else:
+            levels = sorted(f["levels_var"])
+            w0 = 1.0 / np.interp(x0, [lv[0] for lv in levels], [lv[1] for lv in levels])
+        var = f["s2"] / (p * w0) + f["var_a"] + x0 * x0 * f["var_b"] + 2 * x0 * f["cov_ab"]
+        u = np.sqrt(var) / abs(b)
+    outside = (x0 < min(spec.standards)) | (x0 > max(spec.standards))
+    return x0, u, float(f["dof"]), outside

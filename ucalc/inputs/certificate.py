@@ -52,12 +52,12 @@ def component(spec: CertificateSpec, unit: str, name: str = "certificate") -> Co
         u = spec.expanded * scale / spec.k
         dist = Distribution("normal" if math.isinf(dof) else "t", u, dof)
         return Component(name, dist, "B", f"certified U = {spec.expanded:g}{' (relative)' if spec.relative else ''}"
-                                          f"{unit}, k = {spec.k:g}")
+                                          f"{unit}, k = {spec.k:g}", relative=spec.relative)
     assert spec.half_width is not None
     a = spec.half_width * scale
     return Component(name, Distribution(spec.distribution, a, dof), "B",
                      f"certified ±{spec.half_width:g}{' (relative)' if spec.relative else ''}{unit}, "
-                     f"{spec.distribution}")
+                     f"{spec.distribution}", relative=spec.relative)
 
 
 def derive(name: str, spec: Spec, location: Location) -> Derived:

@@ -81,4 +81,4 @@ def build_component(spec: ComponentSpec, value: float, unit: str) -> Component:
         kind = spec.type or "B"
     if spec.note:
         origin += f"; {spec.note}"
-    return Component(spec.name, dist, kind, origin)
+    return Component(spec.name, dist, kind, origin, relative=spec.relative)

@@ -85,7 +85,8 @@ def evaluate(spec: ReplicatesSpec) -> tuple[float, float, float, int, list[str]]
 
 def derive(name: str, spec: Spec, location: Location) -> Derived:
     mean, u, dof, n, working = evaluate(spec.replicates)
-    comp = Component("repeatability", Distribution("t", u, dof), "A", working[-1])
+    relative = bool(spec.replicates.pooled and spec.replicates.pooled.relative)
+    comp = Component("repeatability", Distribution("t", u, dof), "A", working[-1], relative=relative)
     q = Quantity(name=name, value=mean, unit=spec.unit or "", components=(comp,),
                  description=spec.description or "", model="replicates", working=tuple(working), location=location)
     return Derived((q,))

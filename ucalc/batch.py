@@ -1,0 +1,232 @@
+"""Results for many samples: a budget (or a folder of budgets, one per analyte) applied to every row of a table.
+
+Columns named like an input (or mapped with ``--map INPUT=COLUMN``) supply that input's per-sample value; a
+calibration input takes the sample's mean response. Every row gets value, u, nu_eff, k, U, relative U and a
+result statement, and, against a limit, a decision and the probability of conformance. Rows that cannot be
+computed are kept with the reason in the ``error`` column. Rules for budgets, limits and the limit of
+quantification are documented in docs/batch.md.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from .budget.definitions import Budget
+from .conformity import RULE_TEXT, Rule, Side, decide, probability_of_conformance
+from .errors import BudgetError, BudgetErrors, Location, UcalcError
+
+CHUNK = 20_000
+OUTPUT_COLUMNS = ("value", "unit", "u", "nu_eff", "k", "U", "U_rel", "statement")
+
+
+@dataclass(frozen=True)
+class BatchOptions:
+    maps: dict[str, str] = field(default_factory=dict)
+    limit: float | None = None
+    limit_column: str | None = None
+    rule: Rule = "simple"
+    side: Side = "upper"
+    loq: float | None = None
+    loq_column: str | None = None
+    analyte_column: str = "analyte"
+    digits: int = 2
+
+
+@dataclass(frozen=True)
+class BatchSummary:
+    rows: int
+    failed: int
+    decisions: dict[str, int]
+    below_loq: int
+    rule: str | None
+    output: Path | None = None
+
+
+def parse_maps(items: list[str]) -> dict[str, str]:
+    maps: dict[str, str] = {}
+    for item in items:
+        if "=" not in item:
+            raise UcalcError(f"--map {item}: write INPUT=COLUMN")
+        name, column = (part.strip() for part in item.split("=", 1))
+        if not name or not column:
+            raise UcalcError(f"--map {item}: write INPUT=COLUMN")
+        maps[name] = column
+    return maps
+
+
+def _budget_files(folder: Path) -> list[Path]:
+    return sorted(p for p in folder.iterdir() if p.suffix.lower() in (".yaml", ".yml") and p.is_file())
+
+
+def choose_budgets(source: Path, frame: Any, options: BatchOptions) -> dict[str, tuple[Path | None, Any]]:
+    """Group rows by budget. A file serves every row; for a folder the analyte column picks, per row, the
+    budget whose file name (without extension) or measurand symbol equals the analyte, ignoring case."""
+    if source.is_file():
+        return {"": (source, frame.index)}
+    if not source.is_dir():
+        raise BudgetError("budget path is neither a file nor a folder", location=Location(str(source)))
+    column = options.analyte_column
+    if column not in frame.columns:
+        raise UcalcError(f"a folder of budgets needs an analyte column '{column}' in the table "
+                         "(or --analyte-column NAME)")
+    from .budget.load import load_budget
+
+    files = _budget_files(source)
+    by_name = {p.stem.lower(): p for p in files}
+    groups: dict[str, tuple[Path | None, Any]] = {}
+    symbols: dict[str, Path] | None = None
+    for analyte, index in frame.groupby(frame[column].str.strip(), sort=False).groups.items():
+        path = by_name.get(str(analyte).lower())
+        if path is None:
+            if symbols is None:
+                symbols = {}
+                for p in files:
+                    try:
+                        symbols.setdefault(load_budget(p).measurand.symbol.lower(), p)
+                    except UcalcError:
+                        continue
+            path = symbols.get(str(analyte).lower())
+        groups[str(analyte)] = (path, index)
+    return groups
+
+
+def _numbers(frame: Any, column: str) -> Any:
+    import pandas as pd
+
+    return pd.to_numeric(frame[column].str.strip(), errors="coerce").to_numpy(dtype=float)
+
+
+def _per_row_names(budget: Budget, raw_inputs: dict[str, Any], frame: Any, maps: dict[str, str]) -> dict[str, str]:
+    """Input name -> column, for inputs of the model that the table supplies."""
+    names = {n for n in budget.model.inputs} | {n for n in raw_inputs if n in budget.quantities}
+    unknown = [n for n in maps if n not in names]
+    if unknown:
+        raise UcalcError(f"--map {unknown[0]}=...: '{unknown[0]}' is not an input of the budget; inputs are "
+                         f"{', '.join(sorted(names))}")
+    missing = [f"{n}={c}" for n, c in maps.items() if c not in frame.columns]
+    if missing:
+        raise UcalcError(f"--map {missing[0]}: the table has no such column")
+    out = {n: maps.get(n, n) for n in sorted(names) if maps.get(n, n) in frame.columns}
+    return {n: c for n, c in out.items() if n in budget.model.inputs}
+
+
+def run_batch(source: Path, frame: Any, options: BatchOptions,
+              progress: Callable[[int, int], None] | None = None) -> tuple[Any, BatchSummary]:
+    """The output table (input columns plus results) and a summary."""
+    import numpy as np
+
+    from .budget.load import load_document
+    from .engines.batch import propagate_rows, row_input
+    from .reports.common import statement
+    from .reports.document import pretty_unit
+
+    n = len(frame)
+    out = frame.copy()
+    results: dict[str, Any] = {c: np.full(n, np.nan) for c in ("value", "u", "nu_eff", "k", "U", "U_rel")}
+    text: dict[str, list[str]] = {c: [""] * n for c in ("unit", "statement", "error")}
+    limits = np.full(n, np.nan)
+    if options.limit_column:
+        if options.limit_column not in frame.columns:
+            raise UcalcError(f"--limit-column: the table has no column '{options.limit_column}'")
+        limits = _numbers(frame, options.limit_column)
+    elif options.limit is not None:
+        limits[:] = options.limit
+    loq = np.full(n, np.nan)
+    if options.loq_column:
+        if options.loq_column not in frame.columns:
+            raise UcalcError(f"--loq-column: the table has no column '{options.loq_column}'")
+        loq = _numbers(frame, options.loq_column)
+    elif options.loq is not None:
+        loq[:] = options.loq
+    done = 0
+    for analyte, (path, index) in choose_budgets(source, frame, options).items():
+        positions = frame.index.get_indexer(index)
+        if path is None:
+            for i in positions:
+                text["error"][i] = f"no budget for analyte '{analyte}' in {source}"
+            continue
+        doc = load_document(path)
+        from .budget.load import build_budget
+
+        budget = build_budget(doc, sha_of=path)
+        columns = _per_row_names(budget, doc.data.get("inputs", {}), frame, options.maps)
+        unit = pretty_unit(budget.measurand.unit)
+        for start in range(0, len(positions), CHUNK):
+            rows = positions[start:start + CHUNK]
+            sub = frame.iloc[rows]
+            inputs = [row_input(budget, name, doc.data["inputs"].get(name), _numbers(sub, col))
+                      for name, col in columns.items()]
+            res = propagate_rows(budget, inputs, len(rows))
+            results["value"][rows] = res.value
+            results["u"][rows] = res.standard_uncertainty
+            results["nu_eff"][rows] = res.effective_dof
+            results["k"][rows] = res.coverage_factor
+            results["U"][rows] = res.expanded_uncertainty
+            with np.errstate(all="ignore"):
+                results["U_rel"][rows] = res.expanded_uncertainty / np.abs(res.value)
+            for j, i in enumerate(rows):
+                text["unit"][i] = unit
+                if res.errors[j]:
+                    text["error"][i] = res.errors[j] or ""
+                    continue
+                y, U = float(res.value[j]), float(res.expanded_uncertainty[j])
+                if math.isfinite(loq[i]) and y < loq[i]:
+                    text["statement"][i] = (f"{budget.measurand.symbol} < {loq[i]:g}{' ' + unit if unit else ''} "
+                                            "(below the limit of quantification)")
+                else:
+                    text["statement"][i] = statement(budget.measurand.symbol, y, unit, U,
+                                                     float(res.coverage_factor[j]), res.coverage_probability,
+                                                     options.digits)
+            done += len(rows)
+            if progress:
+                progress(done, n)
+    below = np.isfinite(loq) & (results["value"] < loq)
+    for column in ("value", "u", "nu_eff", "k", "U", "U_rel"):
+        out[column] = results[column]
+    out["unit"] = text["unit"]
+    out["statement"] = text["statement"]
+    decisions: dict[str, int] = {}
+    rule_text = None
+    if options.limit is not None or options.limit_column:
+        rule_text = RULE_TEXT[options.rule] + f", {options.side} limit"
+        decided_value = np.where(below, loq, results["value"])  # below LOQ: decided at the LOQ itself
+        decision = decide(decided_value, results["U"], limits, options.rule, options.side)
+        prob = probability_of_conformance(results["value"], results["u"], results["nu_eff"], limits, options.side)
+        prob = np.where(below, np.nan, prob)
+        if not options.limit_column:
+            out["limit"] = limits
+        out["decision"] = decision
+        out["p_conformance"] = prob
+        out["decision_rule"] = rule_text
+        for d in decision:
+            if d:
+                decisions[d] = decisions.get(d, 0) + 1
+    for column in ("value", "U", "U_rel"):
+        out.loc[below, column] = np.nan  # below the LOQ a result is not reported as a number
+    out["error"] = text["error"]
+    failed = sum(1 for e in text["error"] if e)
+    return out, BatchSummary(n, failed, decisions, int(below.sum()), rule_text)
+
+
+def batch(budget: str | Path, table: str | Path, output: str | Path, options: BatchOptions, *,
+          force: bool = False, progress: Callable[[int, int], None] | None = None) -> BatchSummary:
+    """Read the table, compute every row, write the output table atomically; return the summary."""
+    import dataclasses
+
+    from .outputs import OutputError
+    from .tables import read_table, table_format, write_table
+
+    table_format(output)
+    if Path(output).exists() and not force:
+        raise OutputError(output, "exists already; use --force to replace it")
+    frame = read_table(table)
+    if len(frame) == 0:
+        raise BudgetErrors([BudgetError("the table has no rows", location=Location(str(table)))])
+    result, summary = run_batch(Path(budget), frame, options, progress)
+    inputs = [table, budget] if Path(budget).is_file() else [table, *_budget_files(Path(budget))]
+    written = write_table(result, output, force=force, inputs=inputs)
+    return dataclasses.replace(summary, output=written)
