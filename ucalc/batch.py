@@ -170,8 +170,8 @@ def run_batch(source: Path, frame: Any, options: BatchOptions,
                 results["U_rel"][rows] = res.expanded_uncertainty / np.abs(res.value)
             for j, i in enumerate(rows):
                 text["unit"][i] = unit
-                if res.errors[j]:
-                    text["error"][i] = res.errors[j] or ""
+                if j in res.errors:
+                    text["error"][i] = res.errors[j]
                     continue
                 y, U = float(res.value[j]), float(res.expanded_uncertainty[j])
                 if math.isfinite(loq[i]) and y < loq[i]:

@@ -18,17 +18,17 @@ from ..errors import ComputationError
 
 @dataclass(frozen=True)
 class RowInput:
-    """Per-row estimates and standard uncertainties of one input, with an error text per row (or None)."""
+    """Per-row estimates and standard uncertainties of one input; ``errors`` maps a row to why it has none."""
 
     name: str
     values: Any
     u: Any
-    errors: list[str | None]
+    errors: dict[int, str]
 
 
 @dataclass(frozen=True)
 class BatchResult:
-    """Arrays over rows; ``errors[i]`` says why row i has no result (None when it has one)."""
+    """Arrays over rows; ``errors`` maps each row without a result to the reason."""
 
     value: Any
     standard_uncertainty: Any
@@ -36,7 +36,7 @@ class BatchResult:
     coverage_factor: Any
     expanded_uncertainty: Any
     coverage_probability: float | None
-    errors: list[str | None]
+    errors: dict[int, str]
 
 
 def row_input(budget: Budget, name: str, raw: dict[str, Any] | None, column: Any) -> RowInput:
@@ -44,7 +44,7 @@ def row_input(budget: Budget, name: str, raw: dict[str, Any] | None, column: Any
     import numpy as np
 
     values = np.asarray(column, dtype=float)
-    errors: list[str | None] = [None if math.isfinite(v) else f"no value for '{name}'" for v in values]
+    errors = {int(i): f"no value for '{name}'" for i in np.flatnonzero(~np.isfinite(values))}
     q = budget.quantities[name]
     if q.model == "calibration" and raw is not None and "calibration" in raw:
         from ..inputs.calibration import Spec, predict_many
@@ -52,10 +52,9 @@ def row_input(budget: Budget, name: str, raw: dict[str, Any] | None, column: Any
         spec = Spec.model_validate(raw)
         x0, u, _, outside = predict_many(spec.calibration, values)
         lo, hi = min(spec.calibration.standards), max(spec.calibration.standards)
-        for i, out in enumerate(outside):
-            if out and errors[i] is None:
-                errors[i] = (f"'{name}': the sample (x0 = {x0[i]:.4g}) lies outside the calibrated range "
-                             f"[{lo:g}, {hi:g}]")
+        for i in np.flatnonzero(outside):
+            errors.setdefault(int(i), f"'{name}': the sample (x0 = {x0[i]:.4g}) lies outside the calibrated "
+                                      f"range [{lo:g}, {hi:g}]")
         return RowInput(name, x0, u, errors)
     scale = np.abs(values) / abs(q.value) if q.value else np.ones_like(values)
     if q.value == 0 and any(c.relative for c in q.components):
@@ -80,11 +79,10 @@ def propagate_rows(budget: Budget, rows: list[RowInput], n: int) -> BatchResult:
             env[name], u[name] = per_row[name].values, per_row[name].u
         else:
             env[name], u[name] = q.value, q.standard_uncertainty
-    errors: list[str | None] = [None] * n
+    errors: dict[int, str] = {}
     for r in rows:
-        for i, e in enumerate(r.errors):
-            if e and errors[i] is None:
-                errors[i] = e
+        for i, e in r.errors.items():
+            errors.setdefault(i, e)
     with np.errstate(all="ignore"):
         y = np.broadcast_to(np.asarray(model.function("numpy")(env), dtype=float), (n,)).copy()
         terms = []
@@ -110,18 +108,21 @@ def propagate_rows(budget: Budget, rows: list[RowInput], n: int) -> BatchResult:
     else:
         assert p is not None
         nu_used = np.floor(nu) if budget.coverage.dof_rounding == "down" else nu
+        # t quantiles once per distinct degrees of freedom (rows share few after truncation, G.6.4)
+        distinct, inverse = np.unique(np.where(np.isfinite(nu_used), np.maximum(nu_used, 1), np.inf),
+                                      return_inverse=True)
         with np.errstate(all="ignore"):
-            t = stats.t.ppf(0.5 + p / 2, np.maximum(nu_used, 1))
-            k = np.where(np.isinf(nu_used), stats.norm.ppf(0.5 + p / 2), t)
+            quantiles = np.where(np.isinf(distinct), stats.norm.ppf(0.5 + p / 2),
+                                 stats.t.ppf(0.5 + p / 2, np.where(np.isinf(distinct), 1, distinct)))
+        k = quantiles[inverse.reshape(-1)]
         for i in np.flatnonzero(nu_used < 1):
-            if errors[i] is None:
-                errors[i] = f"effective degrees of freedom {nu[i]:.3g} are below 1"
+            errors.setdefault(int(i), f"effective degrees of freedom {nu[i]:.3g} are below 1")
     bad = ~(np.isfinite(y) & np.isfinite(uc))
     for i in np.flatnonzero(bad):
-        if errors[i] is None:
-            errors[i] = "the result is not finite for this row's values"
+        errors.setdefault(int(i), "the result is not finite for this row's values")
     expanded = k * uc
-    for i, e in enumerate(errors):
-        if e is not None:
-            y[i] = uc[i] = nu[i] = k[i] = expanded[i] = np.nan
+    failed = np.fromiter(errors, dtype=np.intp, count=len(errors))
+    nu = np.array(nu, dtype=float)
+    for array in (y, uc, nu, k, expanded):
+        array[failed] = np.nan
     return BatchResult(y, uc, nu, k, expanded, p if budget.coverage.k is None else None, errors)
