@@ -75,7 +75,22 @@ class UnitError(ExpressionError):
 class ComputationError(UcalcError, ArithmeticError):
     """A budget that is well formed but cannot be computed (non-finite value, invalid degrees of freedom...)."""
 
-    def __init__(self, rule: str, subject: str = "") -> None:
+    def __init__(self, rule: str, subject: str = "", location: Location | None = None) -> None:
         self.rule = rule
         self.subject = subject
-        super().__init__(f"{subject}: {rule}" if subject else rule)
+        self.location = location
+        super().__init__(self.message)
+
+    @property
+    def message(self) -> str:
+        head = f"{self.location}: " if self.location else ""
+        return head + (f"{self.subject}: {self.rule}" if self.subject else self.rule)
+
+    def __str__(self) -> str:
+        return self.message
+
+    def located(self, file: str) -> ComputationError:
+        """The same error, placed in ``file`` if it has no place yet."""
+        if self.location is None:
+            self.location = Location(file)
+        return self

@@ -45,6 +45,16 @@ def check_budget(path: str | Path) -> Budget:
 def evaluate_budget(budget: Budget, *, method: Method = "gum", second_order: bool = False,
                     mc: MonteCarloOptions | None = None, progress: Progress | None = None) -> Evaluation:
     """Propagate a loaded budget by the GUM and, if asked, by Monte Carlo with the GUM validated against it."""
+    from .errors import ComputationError
+
+    try:
+        return _evaluate(budget, method, second_order, mc, progress)
+    except ComputationError as exc:
+        raise exc.located(budget.source) from None
+
+
+def _evaluate(budget: Budget, method: Method, second_order: bool, mc: MonteCarloOptions | None,
+              progress: Progress | None) -> Evaluation:
     from .engines.gum import propagate
 
     gum = propagate(budget, second_order=second_order)

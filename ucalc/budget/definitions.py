@@ -40,8 +40,9 @@ def welch_satterthwaite(parts: list[tuple[float, float]]) -> float:
     live = [(u, nu) for u, nu in parts if u > 0]
     if len(live) == 1:
         return live[0][1]  # exact for a single term (avoids rounding in u^4/u^4)
-    total = sum(u * u for u, _ in parts)
-    denom = sum(u**4 / nu for u, nu in parts if not math.isinf(nu) and u > 0)
+    scale = max((u for u, _ in live), default=1.0)  # scale-free ratio: no overflow or underflow of u^4
+    total = sum((u / scale) ** 2 for u, _ in live)
+    denom = sum((u / scale) ** 4 / nu for u, nu in live if not math.isinf(nu))
     if denom == 0.0:
         return math.inf
     return total * total / denom
@@ -64,7 +65,7 @@ class Quantity:
     @property
     def standard_uncertainty(self) -> float:
         """Root sum of squares of the components' standard uncertainties."""
-        return math.sqrt(sum(c.standard_uncertainty**2 for c in self.components))
+        return math.hypot(*(c.standard_uncertainty for c in self.components))  # no overflow or underflow
 
     @property
     def dof(self) -> float:

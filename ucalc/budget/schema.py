@@ -24,7 +24,7 @@ def check_name(name: str) -> str:
 
 
 class _Strict(BaseModel):
-    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False, strict=True)
 
 
 class MeasurandSpec(_Strict):

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import io
 import math
+import re
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -17,6 +18,7 @@ from ..errors import BudgetError, Location
 
 MAX_BYTES = 5_000_000
 MAX_NODES = 200_000
+MAX_DEPTH = 64
 _PLAIN_TAGS = {f"tag:yaml.org,2002:{t}" for t in ("str", "int", "float", "bool", "null", "map", "seq")}
 
 PathKey = tuple[str | int, ...]
@@ -83,6 +85,12 @@ def parse_yaml(text: str, file: str) -> Document:
     from ruamel.yaml import YAML
     from ruamel.yaml.error import MarkedYAMLError, YAMLError
 
+    depth = deepest = 0
+    for ch in re.sub(r"[^\[\]{}]", "", text):  # flow nesting, counted before the parser recurses into it
+        depth = depth + 1 if ch in "[{" else max(depth - 1, 0)
+        deepest = max(deepest, depth)
+    if deepest > MAX_DEPTH:
+        _fail(f"YAML nested more than {MAX_DEPTH} levels deep", file)
     for number, line in enumerate(text.splitlines(), 1):
         stripped = line.lstrip(" ")
         if stripped.startswith("\t"):
@@ -111,9 +119,9 @@ def _plain(node: Any, path: PathKey, doc: Document, counter: list[int], depth: i
     from ruamel.yaml.comments import CommentedMap, CommentedSeq, TaggedScalar
 
     counter[0] += 1
-    if counter[0] > MAX_NODES or depth > 64:
+    if counter[0] > MAX_NODES or depth > MAX_DEPTH:
         loc = doc.locate(path)
-        why = "nested too deeply" if depth > 64 else f"has more than {MAX_NODES} nodes (alias expansion?)"
+        why = "nested too deeply" if depth > MAX_DEPTH else f"has more than {MAX_NODES} nodes (alias expansion?)"
         _fail(f"YAML document {why}", doc.file, loc.line, loc.column)
     tag = getattr(node, "tag", None)
     tag_value = getattr(tag, "value", None) if tag is not None else None

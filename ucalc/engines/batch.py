@@ -90,15 +90,18 @@ def propagate_rows(budget: Budget, rows: list[RowInput], n: int) -> BatchResult:
             c = np.broadcast_to(np.asarray(model.evaluate_tree(model.derivative(name), env, "numpy"), dtype=float),
                                 (n,))
             terms.append((name, c * u[name]))
-        variance = sum(t * t for _, t in terms)
-        for i, (a, ta) in enumerate(terms):
-            for b, tb in terms[i + 1:]:
+        scale = np.max([np.abs(t) for _, t in terms], axis=0) if terms else np.ones(n)
+        scale = np.where(scale > 0, scale, 1.0)  # per row, so squares neither overflow nor underflow
+        scaled = [(name, t / scale) for name, t in terms]
+        variance = sum(t * t for _, t in scaled)
+        for i, (a, ta) in enumerate(scaled):
+            for b, tb in scaled[i + 1:]:
                 r = budget.correlation(a, b)
                 if r:
                     variance = variance + 2.0 * r * ta * tb
         variance = np.broadcast_to(np.asarray(variance, dtype=float), (n,))
-        uc = np.sqrt(np.clip(variance, 0.0, None))
-        denom = sum(t**4 / budget.quantities[name].dof for name, t in terms
+        uc = scale * np.sqrt(np.clip(variance, 0.0, None))
+        denom = sum(t**4 / budget.quantities[name].dof for name, t in scaled
                     if math.isfinite(budget.quantities[name].dof))
         denom = np.broadcast_to(np.asarray(denom, dtype=float), (n,))
         nu = np.where(denom > 0, variance**2 / np.where(denom > 0, denom, 1.0), np.inf)

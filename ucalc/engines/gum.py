@@ -73,13 +73,20 @@ def propagate(budget: Budget, *, second_order: bool = False) -> GumResult:
     u = [x.standard_uncertainty for x in q]
     c = [float(model.evaluate_tree(model.derivative(n), env)) for n in names]
     terms = [ci * ui for ci, ui in zip(c, u, strict=True)]
-    first = sum(t * t for t in terms)
-    cross = 0.0
+    if any(t == 0.0 and ci != 0.0 and ui != 0.0 for t, ci, ui in zip(terms, c, u, strict=True)):
+        raise ComputationError("a sensitivity coefficient times its standard uncertainty underflows to zero; "
+                               "express the inputs in units that bring the numbers nearer 1")
+    if not all(math.isfinite(t) for t in terms):
+        raise ComputationError("a sensitivity coefficient times its standard uncertainty overflows; "
+                               "express the inputs in units that bring the numbers nearer 1")
+    scale = max((abs(t) for t in terms), default=0.0) or 1.0  # sums of squares of t/scale cannot overflow
+    first_s = sum((t / scale) ** 2 for t in terms)
+    cross_s = 0.0
     for i in range(len(names)):
         for j in range(i + 1, len(names)):
             r = budget.correlation(names[i], names[j])
             if r:
-                cross += 2.0 * terms[i] * terms[j] * r
+                cross_s += 2.0 * (terms[i] / scale) * (terms[j] / scale) * r
     second = 0.0
     notes: list[str] = []
     if second_order:
@@ -87,14 +94,16 @@ def propagate(budget: Budget, *, second_order: bool = False) -> GumResult:
             raise ComputationError("second-order terms (JCGM 100 5.1.2 note) need uncorrelated inputs",
                                    subject="--second-order")
         second = _second_order(budget, names, env, u, c)
-    variance = first + cross + second
-    if variance < 0:
-        if variance > -1e-12 * (first + 1e-300):
-            variance = 0.0
+    variance_s = first_s + cross_s + ((second / scale) / scale if second else 0.0)
+    if variance_s < 0:
+        if variance_s > -1e-12 * (first_s + 1e-300):
+            variance_s = 0.0
         else:
-            raise ComputationError(f"combined variance is negative ({variance:.3g}); check the correlations")
-    uc = math.sqrt(variance)
-    nu = _effective_dof(first + cross, terms, [x.dof for x in q])
+            raise ComputationError(f"combined variance is negative (relative {variance_s:.3g}); "
+                                   "check the correlations")
+    uc = scale * math.sqrt(variance_s)
+    cross = cross_s * scale * scale if cross_s else 0.0
+    nu = _effective_dof(first_s + cross_s, [t / scale for t in terms], [x.dof for x in q])
     p = budget.coverage.probability
     if uc == 0.0:
         notes.append("every input is exact or has zero sensitivity: the combined uncertainty is zero")
@@ -112,16 +121,18 @@ def propagate(budget: Budget, *, second_order: bool = False) -> GumResult:
     for x, ci, ui, t in zip(q, c, u, terms, strict=True):
         contributions.append(Contribution(
             input=x.name, value=x.value, unit=x.unit, standard_uncertainty=ui, dof=x.dof, sensitivity=ci,
-            contribution=abs(t), index=(t * t / variance) if variance > 0 else 0.0, kind=x.kind, shape=x.shape,
+            contribution=abs(t), index=((t / scale) ** 2 / variance_s) if variance_s > 0 else 0.0, kind=x.kind,
+            shape=x.shape,
         ))
     contributions.sort(key=lambda row: (-row.contribution, row.input))
-    if cross and first:
-        change = "raise" if cross > 0 else "lower"
-        notes.append(f"correlation terms {change} u_c^2 to {(first + cross) / first:.0%} of the uncorrelated sum; "
-                     "effective dof by Welch-Satterthwaite over the uncorrelated terms, which is conservative "
-                     "where correlations cancel")
+    if cross_s and first_s:
+        change = "raise" if cross_s > 0 else "lower"
+        share = (first_s + cross_s) / first_s
+        notes.append(f"correlation terms {change} u_c^2 to {share:.0%} of the uncorrelated sum; effective dof"
+                     " by Welch-Satterthwaite over the uncorrelated terms, which is conservative where correlations "
+                     "cancel")
     if second:
-        notes.append(f"second-order terms add {second / variance:.1%} of u_c^2")
+        notes.append(f"second-order terms add {(second / scale) / scale / variance_s:.1%} of u_c^2")
     return GumResult(
         measurand=budget.measurand.symbol, unit=budget.measurand.unit, value=y, standard_uncertainty=uc,
         effective_dof=nu, coverage_factor=k, coverage_probability=p_out, expanded_uncertainty=k * uc,

@@ -189,8 +189,9 @@ def _summarise(budget: Budget, y: np.ndarray, seed: int, p: float, *, adaptive: 
     if len(y) < 2:
         raise MonteCarloError("every trial gave a non-finite model value")
     y.sort()
-    mean = float(np.mean(y))
-    sd = float(np.std(y, ddof=1))
+    scale = max(abs(float(y[0])), abs(float(y[-1]))) or 1.0  # moments of y/scale cannot overflow
+    mean = float(np.mean(y / scale)) * scale
+    sd = float(np.std(y / scale, ddof=1)) * scale
     symmetric, shortest = _intervals(y, p)
     lo, hi = y[int(0.0005 * (len(y) - 1))], y[int(math.ceil(0.9995 * (len(y) - 1)))]  # y is sorted
     if hi <= lo:

@@ -20,14 +20,14 @@ from .base import Derived, InputSpec
 
 
 class Weighings(BaseModel):
-    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False, strict=True)
 
     tare: float = Field(ge=0)
     gross: float = Field(gt=0)
 
 
 class BalanceSpec(BaseModel):
-    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False, strict=True)
 
     reading: float | None = Field(default=None, gt=0)
     unit: str | None = Field(default=None, max_length=100)

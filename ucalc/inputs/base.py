@@ -41,7 +41,7 @@ class InputSpec(BaseModel):
     The unit may be written at the input's level or inside the block (not both, differently).
     """
 
-    model_config = ConfigDict(extra="forbid", allow_inf_nan=False, populate_by_name=True)
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False, strict=True, populate_by_name=True)
     KEY: ClassVar[str] = ""
     DEFAULT_UNIT: ClassVar[str | None] = None
 

@@ -26,7 +26,7 @@ from .base import Derived, InputSpec
 
 
 class CalibrationSpec(BaseModel):
-    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False, strict=True)
 
     standards: list[float] = Field(min_length=1, max_length=10_000)
     responses: list[float | list[float]] = Field(min_length=1, max_length=10_000)

@@ -18,7 +18,7 @@ from .base import Derived, InputSpec
 
 
 class CertificateSpec(BaseModel):
-    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False, strict=True)
 
     value: float
     unit: str | None = Field(default=None, max_length=100)

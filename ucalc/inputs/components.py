@@ -19,7 +19,7 @@ from ..distributions import DIVISORS, Distribution
 class ComponentSpec(BaseModel):
     """One uncertainty component of an input."""
 
-    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False, strict=True)
 
     name: str = Field(min_length=1, max_length=200)
     standard: float | None = Field(default=None, gt=0)

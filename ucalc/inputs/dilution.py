@@ -17,7 +17,7 @@ from .base import Derived, InputSpec, get_model, model_key
 
 
 class Step(BaseModel):
-    model_config = ConfigDict(extra="forbid")
+    model_config = ConfigDict(extra="forbid", strict=True)
 
     aliquot: dict[str, Any]
     final: dict[str, Any]

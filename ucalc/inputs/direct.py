@@ -15,7 +15,7 @@ from .components import ComponentSpec, build_component
 
 
 class Spec(BaseModel):
-    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False, strict=True)
 
     value: float
     unit: str | None = Field(default=None, max_length=100)

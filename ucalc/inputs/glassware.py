@@ -36,7 +36,7 @@ TABLES = {"pipette": ("ISO 648", PIPETTE_ISO648), "flask": ("ISO 1042", FLASK_IS
 
 
 class GlasswareSpec(BaseModel):
-    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False, strict=True)
 
     item: Literal["pipette", "flask", "burette", "piston_pipette"]
     nominal: float = Field(gt=0)

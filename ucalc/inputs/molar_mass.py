@@ -21,14 +21,14 @@ from .base import Derived, InputSpec
 
 
 class AtomicWeight(BaseModel):
-    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False, strict=True)
 
     value: float = Field(gt=0)
     half_width: float = Field(ge=0)
 
 
 class MolarMassSpec(BaseModel):
-    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False, strict=True)
 
     formula: str = Field(min_length=1, max_length=200)
     atomic_weights: dict[str, AtomicWeight] = Field(default_factory=dict)

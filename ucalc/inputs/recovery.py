@@ -23,7 +23,7 @@ from .certificate import CertificateSpec, component
 
 
 class RecoverySpec(BaseModel):
-    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False, strict=True)
 
     found: list[float] = Field(min_length=2, max_length=100_000)
     reference: CertificateSpec

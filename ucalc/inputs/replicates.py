@@ -21,7 +21,7 @@ from .base import Derived, InputSpec
 
 
 class Pooled(BaseModel):
-    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False, strict=True)
 
     s: float = Field(gt=0)
     dof: float = Field(ge=1)
@@ -30,7 +30,7 @@ class Pooled(BaseModel):
 
 
 class ReplicatesSpec(BaseModel):
-    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False, strict=True)
 
     values: list[float] | None = Field(default=None, max_length=100_000)
     mean: float | None = None
