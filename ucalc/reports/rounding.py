@@ -11,7 +11,6 @@ from __future__ import annotations
 import math
 from decimal import ROUND_HALF_UP, Decimal
 
-
 SCIENTIFIC_ABOVE = 6  # last significant digit at 10^6 or above: E-notation (no long runs of zeros)
 SCIENTIFIC_BELOW = -10  # last significant digit at 10^-10 or below: E-notation
 
