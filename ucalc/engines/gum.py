@@ -58,7 +58,7 @@ def coverage_factor(probability: float, dof: float) -> float:
     """t_p(nu): the two-sided coverage factor of the t-distribution (JCGM 100 G.3.4, Table G.2)."""
     from scipy import stats
 
-    if math.isinf(dof):
+    if math.isinf(dof) or dof > 1e12:  # beyond 1e12 dof the t quantile equals the Gaussian one to 1e-12
         return float(stats.norm.ppf(0.5 + probability / 2.0))
     return float(stats.t.ppf(0.5 + probability / 2.0, dof))
 
@@ -111,7 +111,7 @@ def propagate(budget: Budget, *, second_order: bool = False) -> GumResult:
         k, p_out = budget.coverage.k, None
     else:
         assert p is not None
-        nu_used = math.floor(nu) if (budget.coverage.dof_rounding == "down" and not math.isinf(nu)) else nu
+        nu_used = float(math.floor(nu)) if (budget.coverage.dof_rounding == "down" and not math.isinf(nu)) else nu
         if nu_used < 1:
             raise ComputationError(
                 f"effective degrees of freedom {nu:.3g} are below 1, so no coverage factor follows from the "

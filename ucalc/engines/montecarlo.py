@@ -194,8 +194,11 @@ def _summarise(budget: Budget, y: np.ndarray, seed: int, p: float, *, adaptive: 
     sd = float(np.std(y / scale, ddof=1)) * scale
     symmetric, shortest = _intervals(y, p)
     lo, hi = y[int(0.0005 * (len(y) - 1))], y[int(math.ceil(0.9995 * (len(y) - 1)))]  # y is sorted
-    if hi <= lo:
-        lo, hi = float(y[0]) - 0.5, float(y[-1]) + 0.5
+    lo, hi = float(lo), float(hi)
+    if not hi - lo > 1e-9 * max(abs(lo), abs(hi)):  # (nearly) constant output: a narrow window around it
+        centre = 0.5 * lo + 0.5 * hi
+        spread = max(abs(centre) * 1e-6, 1e-300)
+        lo, hi = centre - spread, centre + spread
     counts, edges = np.histogram(y, bins=HISTOGRAM_BINS, range=(float(lo), float(hi)))
     histogram = Histogram(tuple(int(c) for c in counts), tuple(float(e) for e in edges),
                           int(len(y) - counts.sum()))
