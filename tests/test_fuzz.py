@@ -22,6 +22,7 @@ from ucalc.workflow import MonteCarloOptions, evaluate_budget
 
 from .conftest import BUDGETS
 
+
 def fuzz(examples: int) -> settings:
     return settings(max_examples=examples, deadline=None, derandomize=bool(os.environ.get("CI")), database=None,
                     suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much,

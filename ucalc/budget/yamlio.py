@@ -17,7 +17,7 @@ from typing import Any
 from ..errors import BudgetError, Location
 
 MAX_BYTES = 5_000_000
-MAX_NODES = 200_000
+MAX_NODES = 100_000
 MAX_DEPTH = 64
 _PLAIN_TAGS = {f"tag:yaml.org,2002:{t}" for t in ("str", "int", "float", "bool", "null", "map", "seq")}
 
