@@ -100,6 +100,17 @@ def _numbers(frame: Any, column: str) -> Any:
     return pd.to_numeric(frame[column].str.strip(), errors="coerce").to_numpy(dtype=float)
 
 
+def _per_row(frame: Any, option: str, column: str | None, value: float | None) -> Any:
+    """A number per row from a column, or the same number for every row, or NaN when neither is given."""
+    import numpy as np
+
+    if column:
+        if column not in frame.columns:
+            raise UcalcError(f"{option}: the table has no column '{column}'")
+        return _numbers(frame, column)
+    return np.full(len(frame), np.nan if value is None else value)
+
+
 def _per_row_names(budget: Budget, raw_inputs: dict[str, Any], frame: Any, maps: dict[str, str]) -> dict[str, str]:
     """Input name -> column, for inputs of the model that the table supplies."""
     names = {n for n in budget.model.inputs} | {n for n in raw_inputs if n in budget.quantities}
@@ -128,20 +139,8 @@ def run_batch(source: Path, frame: Any, options: BatchOptions,
     out = frame.copy()
     results: dict[str, Any] = {c: np.full(n, np.nan) for c in ("value", "u", "nu_eff", "k", "U", "U_rel")}
     text: dict[str, list[str]] = {c: [""] * n for c in ("unit", "statement", "error")}
-    limits = np.full(n, np.nan)
-    if options.limit_column:
-        if options.limit_column not in frame.columns:
-            raise UcalcError(f"--limit-column: the table has no column '{options.limit_column}'")
-        limits = _numbers(frame, options.limit_column)
-    elif options.limit is not None:
-        limits[:] = options.limit
-    loq = np.full(n, np.nan)
-    if options.loq_column:
-        if options.loq_column not in frame.columns:
-            raise UcalcError(f"--loq-column: the table has no column '{options.loq_column}'")
-        loq = _numbers(frame, options.loq_column)
-    elif options.loq is not None:
-        loq[:] = options.loq
+    limits = _per_row(frame, "--limit-column", options.limit_column, options.limit)
+    loq = _per_row(frame, "--loq-column", options.loq_column, options.loq)
     done = 0
     for analyte, (path, index) in choose_budgets(source, frame, options).items():
         positions = frame.index.get_indexer(index)

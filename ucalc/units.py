@@ -68,6 +68,16 @@ def pretty(unit: Any) -> str:
     return re.sub(r"(?<![A-Za-z])u(?=[a-zA-Z])", "µ", text)
 
 
+def display(text: str | None) -> str:
+    """A unit as the budget wrote it, in the human form of :func:`pretty` (text kept if pint cannot read it)."""
+    if not text:
+        return ""
+    try:
+        return pretty(parse_unit(text))
+    except ExpressionError:
+        return text
+
+
 def normalise(node: expr.Node, units: dict[str, Any]) -> tuple[expr.Node, Any]:
     """Check a tree's dimensions; return (tree with conversion factors, unit of its value)."""
     reg = registry()

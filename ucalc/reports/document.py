@@ -19,13 +19,7 @@ if TYPE_CHECKING:
     from ..engines.montecarlo import MonteCarloResult
 
 
-def pretty_unit(text: str) -> str:
-    if not text:
-        return ""
-    try:
-        return units.pretty(units.parse_unit(text))
-    except Exception:
-        return text
+pretty_unit = units.display
 
 
 def _divisor(c: Any) -> str:

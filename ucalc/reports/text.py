@@ -18,13 +18,7 @@ if TYPE_CHECKING:
 SHAPES = {"rectangular": "rect", "triangular": "tri", "combined": "mixed"}
 
 
-def _unit(text: str) -> str:
-    if not text:
-        return ""
-    try:
-        return units.pretty(units.parse_unit(text))
-    except Exception:
-        return text
+_unit = units.display
 
 
 def render_header(console: Console, budget: Budget) -> None:
