@@ -59,8 +59,13 @@ def test_percent_is_a_dimensionless_fraction() -> None:
     assert r.value == pytest.approx(9.95, rel=1e-12)
 
 
-def test_offset_temperature_unit_is_refused() -> None:
-    inputs = "  t: {value: 20, unit: degC, components: [{name: s, standard: 0.1}]}"
-    with pytest.raises(BudgetErrors) as info:
-        load_budget_text(budget("y = t * 2", "K", inputs))
-    assert "offset zero" in str(info.value)
+def test_celsius_is_a_temperature_difference() -> None:
+    # V(t) = V20 (1 + gamma (t - t20)) with t in °C and gamma in 1/°C: the expansion of a volume (CG4 A1.4)
+    inputs = ("  V20: {value: 100, unit: mL, components: [{name: s, standard: 0.04}]}\n"
+              "  gamma: {value: 2.1e-4, unit: 1/°C}\n"
+              "  t: {value: 24, unit: °C, components: [{name: s, half_width: 1, distribution: rectangular}]}\n"
+              "  t20: {value: 20, unit: degC}")
+    r = propagate(load_budget_text(budget("y = V20 * (1 + gamma * (t - t20))", "mL", inputs)))
+    assert r.value == pytest.approx(100 * (1 + 2.1e-4 * 4), rel=1e-12)
+    t_row = next(c for c in r.contributions if c.input == "t")
+    assert t_row.sensitivity == pytest.approx(100 * 2.1e-4, rel=1e-12)  # mL per K (= per °C difference)

@@ -24,6 +24,7 @@ def registry() -> Any:
     import pint
 
     reg = pint.UnitRegistry(autoconvert_offset_to_baseunit=False)
+    reg.define("ppb = 1e-9 = ppb")  # parts per billion, beside pint's own ppm
     return reg
 
 
@@ -39,6 +40,14 @@ def parse_unit(text: str | None) -> Any:
         unit = reg.parse_units(cleaned)
     except Exception as exc:  # pint raises several unrelated types for bad text
         raise ExpressionError(f"unit '{text}' is not known ({type(exc).__name__})") from None
+    if is_offset(unit):
+        # °C and °F in a measurement model are temperature differences or values on one scale; as delta units
+        # they multiply and subtract as arithmetic needs (converting absolute °C to K is not done)
+        delta = {"degree_Celsius": "delta_degC", "degree_Fahrenheit": "delta_degF"}.get(str(unit))
+        if delta is None:
+            raise ExpressionError(f"unit '{text}' has an offset zero and cannot enter a product; "
+                                  "give temperature differences in K")
+        unit = reg.parse_units(delta)
     return unit
 
 
