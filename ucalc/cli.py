@@ -139,8 +139,8 @@ def report_command(
     options = MonteCarloOptions(trials=trials, seed=seed)
     try:
         with _progress(method is not Method.gum and trials >= 2_000_000) as progress:
-            written = report(budget, output, fmt=fmt, method=method.value, mc=options, force=force, digits=digits,
-                             progress=progress)
+            written = report(budget, output, fmt="md" if fmt == "md" else "html", method=method.value, mc=options,
+                             force=force, digits=digits, progress=progress)
     except UcalcError as exc:
         _fail(exc)
         return
@@ -191,8 +191,8 @@ class Rule(StrEnum):
 
 
 class Side(StrEnum):
-    upper = "upper"
-    lower = "lower"
+    upper_limit = "upper"
+    lower_limit = "lower"
 
 
 @app.command("batch")
@@ -208,7 +208,7 @@ def batch_command(
     = None,
     rule: Annotated[Rule, typer.Option("--rule", help="decision rule (docs/batch.md)")] = Rule.simple,
     side: Annotated[Side, typer.Option("--side", help="the limit is a maximum (upper) or minimum (lower)")]
-    = Side.upper,
+    = Side.upper_limit,
     loq: Annotated[float | None, typer.Option("--loq", help="limit of quantification")] = None,
     loq_column: Annotated[str | None, typer.Option("--loq-column", help="column holding each row's LOQ")] = None,
     analyte_column: Annotated[str, typer.Option("--analyte-column", help="column naming the analyte")]
@@ -276,4 +276,4 @@ def main() -> None:
 
 
 if __name__ == "__main__":  # pragma: no cover
-    sys.exit(main())
+    main()

@@ -133,8 +133,8 @@ def improve(doc: Document, budget: Budget, target: str | None = None) -> Improve
         if not isinstance(raw, dict):
             continue
         for label, new_raw in actions_for(raw):
-            row = top if top in rows else _row_of(label, top, rows)
-            candidates.append(_Candidate(top, row, label, new_raw))
+            target_row = top if top in rows else _row_of(label, top, rows)
+            candidates.append(_Candidate(top, target_row, label, new_raw))
 
     def rebuilt(changes: list[_Candidate]) -> GumResult | None:
         data = copy.deepcopy(doc.data)

@@ -96,9 +96,9 @@ def propagate_rows(budget: Budget, rows: list[RowInput], n: int) -> BatchResult:
         variance = sum(t * t for _, t in scaled)
         for i, (a, ta) in enumerate(scaled):
             for b, tb in scaled[i + 1:]:
-                r = budget.correlation(a, b)
-                if r:
-                    variance = variance + 2.0 * r * ta * tb
+                rho = budget.correlation(a, b)
+                if rho:
+                    variance = variance + 2.0 * rho * ta * tb
         variance = np.broadcast_to(np.asarray(variance, dtype=float), (n,))
         uc = scale * np.sqrt(np.clip(variance, 0.0, None))
         denom = sum(t**4 / budget.quantities[name].dof for name, t in scaled
