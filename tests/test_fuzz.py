@@ -23,8 +23,11 @@ from ucalc.workflow import MonteCarloOptions, evaluate_budget
 from .conftest import BUDGETS
 
 
+SCALE = int(os.environ.get("UCALC_FUZZ_SCALE", "1"))  # more examples for a longer local fuzzing session
+
+
 def fuzz(examples: int) -> settings:
-    return settings(max_examples=examples, deadline=None, derandomize=bool(os.environ.get("CI")), database=None,
+    return settings(max_examples=examples * SCALE, deadline=None, derandomize=bool(os.environ.get("CI")), database=None,
                     suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much,
                                            HealthCheck.function_scoped_fixture])
 FILE = "fuzz.yaml"

@@ -140,6 +140,17 @@ def predict(spec: CalibrationSpec, f: dict[str, Any]) -> tuple[float, float, flo
 
 
 def derive(name: str, spec: Spec, location: Location) -> Derived:
+    import numpy as np
+
+    try:
+        with np.errstate(all="raise"):
+            return _derive(name, spec, location)
+    except (FloatingPointError, np.linalg.LinAlgError) as exc:
+        raise ValueError(f"the calibration data cannot be fitted ({exc}); check for extreme or repeated values") \
+            from None
+
+
+def _derive(name: str, spec: Spec, location: Location) -> Derived:
     from scipy import stats
 
     cs = spec.calibration
