@@ -189,9 +189,12 @@ def _summarise(budget: Budget, y: np.ndarray, seed: int, p: float, *, adaptive: 
     if len(y) < 2:
         raise MonteCarloError("every trial gave a non-finite model value")
     y.sort()
-    scale = max(abs(float(y[0])), abs(float(y[-1]))) or 1.0  # moments of y/scale cannot overflow
-    mean = float(np.mean(y / scale)) * scale
-    sd = float(np.std(y / scale, ddof=1)) * scale
+    scale = max(abs(float(y[0])), abs(float(y[-1]))) or 1.0
+    if 1e-100 < scale < 1e100:
+        mean, sd = float(np.mean(y)), float(np.std(y, ddof=1))
+    else:  # extreme magnitudes: moments of y/scale cannot overflow or underflow
+        mean = float(np.mean(y / scale)) * scale
+        sd = float(np.std(y / scale, ddof=1)) * scale
     symmetric, shortest = _intervals(y, p)
     lo, hi = y[int(0.0005 * (len(y) - 1))], y[int(math.ceil(0.9995 * (len(y) - 1)))]  # y is sorted
     lo, hi = float(lo), float(hi)
