@@ -82,7 +82,7 @@ def chart(result: Improvement, most: int = 15) -> str:
 
     rows = list(result.options[:most])[::-1]
     plt, fig, ax = _figure(0.32 * len(rows) + 1.2)
-    labels = [f"{o.input}: {o.action}"[:60] for o in rows]
+    labels = [f"{o.input}: {o.action}"[:75] for o in rows]
     hatch = {"zero": "...", "halved": "xx", "action": "///"}
     for y, o in enumerate(rows):
         ax.barh(y, o.expanded_uncertainty, color="#d0d7e3" if o.kind == "action" else "#f0f0f0",
