@@ -22,7 +22,6 @@ from ucalc.workflow import MonteCarloOptions, evaluate_budget
 
 from .conftest import BUDGETS
 
-
 SCALE = int(os.environ.get("UCALC_FUZZ_SCALE", "1"))  # more examples for a longer local fuzzing session
 
 
