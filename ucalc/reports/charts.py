@@ -40,7 +40,7 @@ def _svg(plt, fig) -> str:  # type: ignore[no-untyped-def]
 def contribution_chart(gum: GumResult, unit: str, most: int = 12) -> str:
     """Horizontal bars of |c_i| u(x_i), largest on top, with each input's share of u_c^2."""
     rows = list(gum.contributions[:most])[::-1]
-    plt, fig, ax = _figure(0.35 * len(rows) + 1.0)
+    plt, fig, ax = _figure(0.3 * len(rows) + 0.9)
     values = [r.contribution for r in rows]
     bars = ax.barh([r.input for r in rows], values, color="#b8c4d6", edgecolor="black", hatch="///",
                    linewidth=0.6)
@@ -63,7 +63,7 @@ def distribution_chart(gum: GumResult, mc: MonteCarloResult, unit: str) -> str:
     counts = np.array(hist.counts, dtype=float)
     width = edges[1] - edges[0]
     density = counts / (mc.trials * width) if mc.trials else counts
-    plt, fig, ax = _figure(2.7)
+    plt, fig, ax = _figure(2.4)
     ax.bar(edges[:-1], density, width=width, align="edge", color="#d9d9d9", edgecolor="#555555", linewidth=0.3,
            label="Monte Carlo")
     xs = np.linspace(edges[0], edges[-1], 400)
