@@ -75,3 +75,12 @@ def test_second_order_with_correlations_is_refused() -> None:
     result = runner.invoke(app, ["run", str(BUDGETS / "internal-standard-ratio.yaml"), "--second-order"])
     assert result.exit_code == 2
     assert "need uncorrelated inputs" in result.stderr
+
+
+def test_version_and_help() -> None:
+    from ucalc import __version__
+
+    assert runner.invoke(app, ["--version"]).stdout.strip() == f"ucalc {__version__}"
+    help_text = runner.invoke(app, ["--help"]).stdout
+    for command in ("check", "run", "report", "improve", "batch"):
+        assert command in help_text

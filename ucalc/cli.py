@@ -24,6 +24,22 @@ app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_
 EXIT_BAD_INPUT = 2
 
 
+def _version(value: bool) -> None:
+    if value:
+        from . import __version__
+
+        typer.echo(f"ucalc {__version__}")
+        raise typer.Exit()
+
+
+@app.callback()
+def _main(
+    version: Annotated[bool, typer.Option("--version", callback=_version, is_eager=True,
+                                          help="print the version and exit")] = False,
+) -> None:
+    """Measurement-uncertainty budgets: check, propagate (GUM, Monte Carlo), report, plan and batch results."""
+
+
 class Format(StrEnum):
     text = "text"
     json = "json"
