@@ -19,7 +19,8 @@ if TYPE_CHECKING:
     from rich.console import Console
 
 app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_enable=False,
-                  help="Measurement-uncertainty budgets: check, propagate (GUM, Monte Carlo) and report.")
+                  help="Measurement-uncertainty budgets: check, propagate (GUM, Monte Carlo), report, plan "
+                  "improvements and attach results to sample tables.")
 
 EXIT_BAD_INPUT = 2
 
