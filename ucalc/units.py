@@ -23,7 +23,7 @@ def registry() -> Any:
     """The one pint registry (created on first use; pint is slow to import)."""
     import pint
 
-    reg = pint.UnitRegistry(autoconvert_offset_to_baseunit=False)
+    reg: Any = pint.UnitRegistry(autoconvert_offset_to_baseunit=False)
     reg.define("ppb = 1e-9 = ppb")  # parts per billion, beside pint's own ppm
     return reg
 

@@ -124,7 +124,7 @@ def validation_errors(
     out = []
     for err in exc.errors():
         loc = tuple(p for p in err["loc"] if isinstance(p, str | int))
-        rule = _rule(err, _fields(model, loc))
+        rule = _rule(dict(err), _fields(model, loc))
         where = _path_text(loc)
         key_error = err["type"] == "extra_forbidden"
         target = (*prefix, *loc) if err["type"] != "missing" else (*prefix, *loc[:-1])

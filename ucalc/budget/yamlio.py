@@ -103,8 +103,8 @@ def parse_yaml(text: str, file: str) -> Document:
         problem = (exc.problem or exc.context or "YAML error").strip()
         if "duplicate key" in problem:
             problem = problem.split(" with value")[0]
-        line, col = (mark.line + 1, mark.column + 1) if mark else (0, 0)
-        _fail(f"YAML: {problem}", file, line, col)
+        where = (mark.line + 1, mark.column + 1) if mark else (0, 0)
+        _fail(f"YAML: {problem}", file, *where)
     except YAMLError as exc:
         _fail(f"YAML: {str(exc).splitlines()[0] if str(exc) else type(exc).__name__}", file)
     except RecursionError:

@@ -118,11 +118,11 @@ def propagate_rows(budget: Budget, rows: list[RowInput], n: int) -> BatchResult:
             quantiles = np.where(np.isinf(distinct), stats.norm.ppf(0.5 + p / 2),
                                  stats.t.ppf(0.5 + p / 2, np.where(np.isinf(distinct), 1, distinct)))
         k = quantiles[inverse.reshape(-1)]
-        for i in np.flatnonzero(nu_used < 1):
-            errors.setdefault(int(i), f"effective degrees of freedom {nu[i]:.3g} are below 1")
+        for row in np.flatnonzero(nu_used < 1):
+            errors.setdefault(int(row), f"effective degrees of freedom {nu[row]:.3g} are below 1")
     bad = ~(np.isfinite(y) & np.isfinite(uc))
-    for i in np.flatnonzero(bad):
-        errors.setdefault(int(i), "the result is not finite for this row's values")
+    for row in np.flatnonzero(bad):
+        errors.setdefault(int(row), "the result is not finite for this row's values")
     expanded = k * uc
     failed = np.fromiter(errors, dtype=np.intp, count=len(errors))
     nu = np.array(nu, dtype=float)

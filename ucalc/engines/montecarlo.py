@@ -228,7 +228,9 @@ def new_seed() -> int:
     """A fresh seed from the operating system, to be reported so the run can be repeated."""
     import numpy as np
 
-    return int(np.random.SeedSequence().entropy % (2**63))
+    entropy = np.random.SeedSequence().entropy
+    assert isinstance(entropy, int)
+    return entropy % (2**63)
 
 
 def simulate(budget: Budget, *, trials: int = 1_000_000, seed: int | None = None,

@@ -72,12 +72,14 @@ def fit(spec: CalibrationSpec) -> dict[str, Any]:
     """Weighted least-squares line; returns coefficients, covariance, residual s, dof and the points."""
     import numpy as np
 
-    xs, ys, levels_var = [], [], []
-    for x, r in zip(spec.standards, spec.responses, strict=True):
+    xs: list[float] = []
+    ys: list[float] = []
+    levels_var: list[tuple[float, float]] = []
+    for level, r in zip(spec.standards, spec.responses, strict=True):
         reps = r if isinstance(r, list) else [r]
-        xs.extend([x] * len(reps))
+        xs.extend([level] * len(reps))
         ys.extend(reps)
-        levels_var.append((x, float(np.var(reps, ddof=1)) if len(reps) > 1 else math.nan))
+        levels_var.append((level, float(np.var(reps, ddof=1)) if len(reps) > 1 else math.nan))
     x, y = np.array(xs, dtype=float), np.array(ys, dtype=float)
     if spec.weighting == "inverse_x":
         w = 1.0 / x

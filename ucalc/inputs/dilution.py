@@ -12,6 +12,7 @@ from typing import Any, ClassVar
 
 from pydantic import BaseModel, ConfigDict, Field, ValidationError
 
+from ..budget.definitions import Quantity
 from ..errors import Location
 from .base import Derived, InputSpec, get_model, model_key
 
@@ -34,7 +35,7 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
 
     if spec.unit:
         raise ValueError("a dilution factor has no unit; give units on its aliquots and final volumes")
-    quantities = []
+    quantities: list[Quantity] = []
     correlations: list[tuple[str, str, float]] = []
     warnings: list[str] = []
     factors = []
@@ -44,7 +45,7 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
             raw = getattr(step, role)
             item = f"s{i}_{role}"
             module = get_model(model_key(raw))
-            if module.__name__.endswith(".dilution"):
+            if str(getattr(module, "__name__", "")).endswith(".dilution"):
                 raise ValueError(f"step {i} {role}: a dilution cannot contain a dilution")
             try:
                 item_spec = module.Spec.model_validate(raw)

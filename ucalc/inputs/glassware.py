@@ -21,18 +21,23 @@ from .base import Derived, InputSpec
 WATER_EXPANSION = 2.1e-4  # 1/K, volume expansion coefficient of water near 20 °C  # common practice
 
 # Tolerances in mL for class A; class B is twice class A for these items.  # from memory
-PIPETTE_ISO648 = {0.5: 0.005, 1: 0.008, 2: 0.010, 3: 0.010, 4: 0.015, 5: 0.015, 10: 0.020, 15: 0.030,
-                  20: 0.030, 25: 0.030, 50: 0.050, 100: 0.080}
-FLASK_ISO1042 = {1: 0.025, 2: 0.025, 5: 0.025, 10: 0.025, 20: 0.040, 25: 0.040, 50: 0.060, 100: 0.10,
-                 200: 0.15, 250: 0.15, 500: 0.25, 1000: 0.40, 2000: 0.60}
-BURETTE_ISO385 = {1: 0.006, 2: 0.010, 5: 0.010, 10: 0.020, 25: 0.030, 50: 0.050, 100: 0.10}
+PIPETTE_ISO648: dict[float, float] = {
+    0.5: 0.005, 1: 0.008, 2: 0.010, 3: 0.010, 4: 0.015, 5: 0.015, 10: 0.020, 15: 0.030, 20: 0.030, 25: 0.030,
+    50: 0.050, 100: 0.080}
+FLASK_ISO1042: dict[float, float] = {
+    1: 0.025, 2: 0.025, 5: 0.025, 10: 0.025, 20: 0.040, 25: 0.040, 50: 0.060, 100: 0.10, 200: 0.15, 250: 0.15,
+    500: 0.25, 1000: 0.40, 2000: 0.60}
+BURETTE_ISO385: dict[float, float] = {1: 0.006, 2: 0.010, 5: 0.010, 10: 0.020, 25: 0.030, 50: 0.050, 100: 0.10}
 # Piston pipettes: (systematic %, random CV %) at nominal volume, by nominal volume in µL  # from memory
 PISTON_ISO8655 = {1: (5.0, 5.0), 2: (4.0, 2.0), 5: (2.5, 1.5), 10: (1.2, 0.8), 20: (1.0, 0.5), 50: (1.0, 0.4),
                   100: (0.8, 0.3), 200: (0.8, 0.3), 500: (0.8, 0.3), 1000: (0.8, 0.3), 2000: (0.8, 0.3),
                   5000: (0.8, 0.3), 10000: (0.6, 0.3)}
 
-TABLES = {"pipette": ("ISO 648", PIPETTE_ISO648), "flask": ("ISO 1042", FLASK_ISO1042),
-          "burette": ("ISO 385", BURETTE_ISO385)}
+TABLES: dict[str, tuple[str, dict[float, float]]] = {
+    "pipette": ("ISO 648", dict(PIPETTE_ISO648)),
+    "flask": ("ISO 1042", dict(FLASK_ISO1042)),
+    "burette": ("ISO 385", dict(BURETTE_ISO385)),
+}
 
 
 class GlasswareSpec(BaseModel):
