@@ -37,7 +37,8 @@ CASES: dict[str, tuple[bytes, str]] = {
     "non-UTF-8 bytes": ((BASE % "x").replace("title: t", "title: caf\xe9").encode("latin-1"), "not valid UTF-8"),
     "NUL byte": (b"ucalc: 1\x00\n", "YAML:"),
     "boolean as a number": ((BASE % "x").replace("value: 2", "value: true").encode(), "must be a number"),
-    "infinite number": ((BASE % "x").replace("value: 2", "value: .inf").encode(), "non-finite number"),
+    "infinite number": ((BASE % "x").replace("value: 2", "value: .inf").encode(), "must be a finite number"),
+    "not a number": ((BASE % "x").replace("value: 2", "value: .nan").encode(), "'.nan' is not a number"),
     "not a mapping": (b"- 1\n- 2\n", "a budget must be a YAML mapping"),
     "empty file": (b"", "a budget must be a YAML mapping"),
 }

@@ -118,3 +118,9 @@ def test_yaml_tags_are_refused() -> None:
     text = GOOD.replace("title: t", "title: !!python/object/apply:os.system ['echo hi']")
     (message,) = errors_of(text)
     assert message.startswith("b.yaml:2:") and "not allowed" in message
+
+
+def test_infinite_dof_may_be_written() -> None:
+    text = GOOD.replace("{name: balance, expanded: 0.1, k: 2}", "{name: balance, expanded: 0.1, k: 2, dof: .inf}")
+    budget = load_budget_text(text, "b.yaml")
+    assert budget.quantities["m"].dof == float("inf")

@@ -158,9 +158,9 @@ def _plain(node: Any, path: PathKey, doc: Document, counter: list[int], depth: i
         return int(node)
     if isinstance(node, float):
         value = float(node)
-        if not math.isfinite(value):
+        if math.isnan(value):  # infinities pass: 'dof: .inf' is meaningful, elsewhere the schema refuses them
             loc = doc.locate(path)
-            _fail(f"non-finite number {value} is not allowed", doc.file, loc.line, loc.column)
+            _fail("'.nan' is not a number a budget can use", doc.file, loc.line, loc.column)
         return value
     if isinstance(node, str):
         return str(node)

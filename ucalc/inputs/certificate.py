@@ -26,7 +26,7 @@ class CertificateSpec(BaseModel):
     k: float | None = Field(default=None, gt=0)
     half_width: float | None = Field(default=None, gt=0)
     distribution: Literal["rectangular", "triangular"] = "rectangular"
-    dof: float | None = Field(default=None, ge=1)
+    dof: float | None = Field(default=None, ge=1, allow_inf_nan=True)  # .inf: infinitely many
     relative: bool = False
 
     @model_validator(mode="after")

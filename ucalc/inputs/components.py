@@ -27,7 +27,7 @@ class ComponentSpec(BaseModel):
     k: float | None = Field(default=None, gt=0)
     half_width: float | None = Field(default=None, gt=0)
     distribution: Literal["normal", "rectangular", "triangular", "arcsine"] | None = None
-    dof: float | None = Field(default=None, ge=1)
+    dof: float | None = Field(default=None, ge=1, allow_inf_nan=True)  # .inf: infinitely many
     relative: bool = False
     type: Literal["A", "B"] | None = None
     note: str | None = None

@@ -50,7 +50,7 @@ class GlasswareSpec(BaseModel):
     distribution: Literal["triangular", "rectangular", "normal"] = "triangular"
     temperature_span: float | None = Field(default=None, ge=0)
     repeatability: float | None = Field(default=None, gt=0)
-    repeatability_dof: float | None = Field(default=None, ge=1)
+    repeatability_dof: float | None = Field(default=None, ge=1, allow_inf_nan=True)
     unit: str | None = Field(default=None, max_length=100)
 
     @model_validator(mode="after")

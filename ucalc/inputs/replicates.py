@@ -24,7 +24,7 @@ class Pooled(BaseModel):
     model_config = ConfigDict(extra="forbid", allow_inf_nan=False, strict=True)
 
     s: float = Field(gt=0)
-    dof: float = Field(ge=1)
+    dof: float = Field(ge=1, allow_inf_nan=True)
     n: int | None = Field(default=None, ge=1)
     relative: bool = False
 
