@@ -101,6 +101,7 @@ def test_set_changes_a_budget_like_editing_it(write_budget) -> None:
     assert changed["expanded_uncertainty"] == pytest.approx(
         propagate(load_budget_text(by_hand)).expanded_uncertainty, rel=1e-12)
     assert path.read_text(encoding="utf-8") == glass  # the file is not touched
+    assert changed["settings"] == ["x3.class=A", "x1.n=4"]  # and the output says it is a scenario
 
 
 def test_set_errors_list_valid_fields(write_budget) -> None:

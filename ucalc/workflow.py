@@ -117,7 +117,8 @@ def load_with_settings(path: str | Path, settings: list[str] | None = None) -> t
     doc = load_document(path)
     if settings:
         doc = dataclasses.replace(doc, data=apply_settings(doc.data, settings))
-    return doc, build_budget(doc, sha_of=path)
+    budget = build_budget(doc, sha_of=path)
+    return doc, dataclasses.replace(budget, settings=tuple(settings or ()))
 
 
 def improve(path: str | Path, *, target: str | None = None, settings: list[str] | None = None) -> Improvement:

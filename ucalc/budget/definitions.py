@@ -202,6 +202,7 @@ class Budget:
     sha256: str = ""
     warnings: tuple[str, ...] = ()
     working: dict[str, tuple[str, tuple[str, ...]]] = field(default_factory=dict)
+    settings: tuple[str, ...] = ()  # --set changes applied in memory: the budget differs from its file
 
     def estimates(self) -> dict[str, float]:
         return {name: q.value for name, q in self.quantities.items()}

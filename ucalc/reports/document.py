@@ -63,7 +63,7 @@ def build(budget: Budget, gum: GumResult, mc: MonteCarloResult | None = None, *,
         "version": __version__, "sha256": budget.sha256, "source": budget.source,
         "model": [f"{line.name} = {line.text}" for line in budget.model.lines],
         "inputs": inputs, "defined": defined, "rows": rows, "result": result, "warnings": list(budget.warnings),
-        "caution": CAUTION, "mc": None, "charts": {},
+        "caution": CAUTION, "mc": None, "charts": {}, "settings": list(budget.settings),
     }
     if mc is not None:
         v = mc.validation

@@ -95,6 +95,7 @@ def gum_json(budget: Budget, result: GumResult) -> dict[str, Any]:
             for name, (model, lines) in budget.working.items()},
         "notes": list(result.notes),
         "warnings": list(budget.warnings),
+        "settings": list(budget.settings),
     }
 
 

@@ -27,6 +27,8 @@ def render_header(console: Console, budget: Budget) -> None:
 
     mu = _unit(budget.measurand.unit)
     console.print(f"[bold]{escape(budget.title)}[/bold]")
+    for setting in budget.settings:
+        console.print(escape(f"scenario, not the file as written: --set {setting}"))
     desc = f" — {budget.measurand.description}" if budget.measurand.description else ""
     console.print(escape(f"measurand {budget.measurand.symbol} [{mu or 'dimensionless'}]{desc}"))
     for line in budget.model.lines:
