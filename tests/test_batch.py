@@ -14,7 +14,7 @@ from ucalc.budget.load import load_budget_text
 from ucalc.cli import app
 from ucalc.conformity import decide, probability_of_conformance
 from ucalc.engines.gum import propagate
-from ucalc.scenarios import apply_settings
+from ucalc.workflow import load_with_settings
 
 from .conftest import BUDGETS
 
@@ -29,12 +29,8 @@ def run_batch(*args: str):
 
 
 def single_run(budget_path, settings: list[str]):
-    from ucalc.budget.load import build_budget, load_document
-
-    doc = load_document(budget_path)
-    import dataclasses
-
-    return propagate(build_budget(dataclasses.replace(doc, data=apply_settings(doc.data, settings))))
+    """The single-budget result with the row's values set as `ucalc run --set` would."""
+    return propagate(load_with_settings(budget_path, settings)[1])
 
 
 def test_rows_match_single_budget_runs(tmp_path) -> None:

@@ -427,17 +427,3 @@ def _compile(node: Node, fns: Mapping[str, Callable[..., Any]], memo: dict[int, 
     memo[key] = f
     return f
 
-
-def to_text(node: Node) -> str:
-    """Readable text of a tree (fully parenthesised where needed); for notes and debugging."""
-    if isinstance(node, Num):
-        return repr(node.value)
-    if isinstance(node, Var):
-        return node.name
-    if isinstance(node, Neg):
-        return f"-({to_text(node.arg)})"
-    if isinstance(node, Bin):
-        return f"({to_text(node.left)} {node.op} {to_text(node.right)})"
-    if isinstance(node, Call):
-        return f"{node.fn}({to_text(node.arg)})"
-    raise TypeError(node)  # pragma: no cover

@@ -138,14 +138,6 @@ class Model:
             self._cache[key] = run
         return self._cache[key]
 
-    def intermediates(self, env: Mapping[str, float]) -> dict[str, float]:
-        """Values of every model line at ``env`` (float backend), in the lines' own units."""
-        local = dict(env)
-        fns = _backend("float")
-        for line in self.lines:
-            local[line.name] = expr.compile_tree(line.tree, fns)(local)
-        return {line.name: local[line.name] for line in self.lines}
-
     def derivative(self, *names: str) -> expr.Node:
         """Tree of the (higher) partial derivative of the measurand w.r.t. ``names``, in measurand units."""
         key = ("d", names)
