@@ -22,6 +22,8 @@ from ucalc.workflow import MonteCarloOptions, evaluate_budget
 
 from .conftest import BUDGETS
 
+pytestmark = pytest.mark.slow  # about a minute or more; `pytest -m "not slow"` skips it locally, CI runs it
+
 SCALE = int(os.environ.get("UCALC_FUZZ_SCALE", "1"))  # more examples for a longer local fuzzing session
 
 
