@@ -76,6 +76,8 @@ REGISTRY: dict[str, str] = {
     "calibration": "calibration",
     "dilution": "dilution",
     "molar_mass": "molar_mass",
+    "reproducibility": "reproducibility",
+    "bias": "bias",
 }
 
 
