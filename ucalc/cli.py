@@ -262,6 +262,41 @@ def batch_command(
         raise typer.Exit(EXIT_BAD_INPUT)
 
 
+@app.command("proficiency")
+def proficiency_command(
+    table: Annotated[Path, typer.Argument(help="rounds table, .csv or .xlsx: round, assigned, u_assigned, result, U "
+                                          "[, k, sigma_pt, U_assigned]", show_default=False)],
+    k: Annotated[float, typer.Option("--k", min=0.1, help="coverage factor of the lab's U where no k column")] = 2.0,
+    format: Annotated[Format, typer.Option("--format", "-f", help="text, json or csv")] = Format.text,
+    chart: Annotated[Path | None, typer.Option("--chart", help="also write the score chart as SVG")] = None,
+    force: Annotated[bool, typer.Option("--force", help="replace an existing chart file")] = False,
+) -> None:
+    """z, zeta and E_n scores of proficiency-testing rounds (ISO 13528) and whether the lab's U looks too small."""
+    from .errors import UcalcError
+    from .qc.proficiency import from_table
+    from .reports import qc
+
+    try:
+        if format is Format.md:
+            raise UcalcError("--format for proficiency is text, json or csv")
+        result = from_table(str(table), k)
+        if chart is not None:
+            from .outputs import write_atomic
+
+            write_atomic(chart, qc.proficiency_chart(result), force=force, inputs=[table])
+    except UcalcError as exc:
+        _fail(exc)
+        return
+    if format is Format.json:
+        from .reports.jsonout import dumps
+
+        typer.echo(dumps(qc.to_json(result)))
+    elif format is Format.csv:
+        typer.echo(qc.proficiency_csv(result), nl=False)
+    else:
+        qc.render_proficiency(_console(), result)
+
+
 @contextmanager
 def _progress(wanted: bool) -> Iterator[Callable[[int, int], None] | None]:
     """A progress bar on stderr, only when stderr is a terminal and the run is long."""

@@ -22,8 +22,8 @@ class Columns:
 
 
 def read_columns(path: str | Path, numeric: list[str], text: list[str] | None = None,
-                 required: list[str] | None = None) -> Columns:
-    """Read ``numeric`` columns as floats and ``text`` columns as labels.
+                 required: list[str] | None = None, optional: list[str] | None = None) -> Columns:
+    """Read ``numeric`` columns as floats and ``text`` columns as labels; ``optional`` numeric columns if present.
 
     Rows whose ``required`` numeric cells (default: the first numeric column) are empty are skipped.
     """
@@ -33,6 +33,7 @@ def read_columns(path: str | Path, numeric: list[str], text: list[str] | None = 
 
     frame = read_table(path)
     file = str(path)
+    numeric = [*numeric, *(c for c in optional or [] if c in frame.columns)]
     wanted = [*numeric, *(text or [])]
     for name in wanted:
         if name not in frame.columns:

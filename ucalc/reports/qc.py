@@ -1,0 +1,104 @@
+"""Presentation of the QC-data results: proficiency scores, the reality check of a budget, the uncertainty
+across the working range and detection limits, as terminal tables, JSON-ready dicts, CSV and SVG charts."""
+
+from __future__ import annotations
+
+import dataclasses
+from typing import TYPE_CHECKING, Any
+
+from .common import num
+
+if TYPE_CHECKING:
+    from rich.console import Console
+
+    from ..qc.proficiency import Proficiency
+
+
+def _plain(obj: Any) -> Any:
+    """A frozen result as JSON-ready data (non-finite numbers become None)."""
+    import math
+
+    if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
+        return {f.name: _plain(getattr(obj, f.name)) for f in dataclasses.fields(obj)}
+    if isinstance(obj, tuple | list):
+        return [_plain(x) for x in obj]
+    if isinstance(obj, float) and not math.isfinite(obj):
+        return None
+    return obj
+
+
+def to_json(result: Any) -> dict[str, Any]:
+    """Any QC result object as a JSON object with its field names as keys."""
+    out = _plain(result)
+    assert isinstance(out, dict)
+    return out
+
+
+# ---- proficiency -----------------------------------------------------------------------------------------
+
+
+def _score(x: float | None) -> str:
+    return "" if x is None else f"{x:.2f}"
+
+
+def render_proficiency(console: Console, result: Proficiency) -> None:
+    from rich.markup import escape
+    from rich.table import Table
+
+    table = Table(header_style="bold", title="Proficiency-testing scores (ISO 13528 9.4, 9.6, 9.7)",
+                  title_justify="left")
+    for col in ("round", "x_pt", "u(x_pt)", "x", "U(x)", "k", "z", "zeta", "E_n", "zeta verdict", "E_n verdict"):
+        table.add_column(col, justify="left" if col in ("round", "zeta verdict", "E_n verdict") else "right")
+    for r in result.rounds:
+        table.add_row(escape(r.name), num(r.assigned, 4), num(r.u_assigned, 3), num(r.result, 4),
+                      num(r.expanded, 3), num(r.k, 3), _score(r.z), _score(r.zeta), _score(r.en), r.verdict_zeta,
+                      r.verdict_en)
+    console.print(table)
+    console.print(("[bold]flag:[/bold] " if result.u_too_small else "") + escape(result.message))
+
+
+def proficiency_csv(result: Proficiency) -> str:
+    import csv
+    import io
+
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\n")
+    writer.writerow(["round", "assigned", "u_assigned", "result", "U", "k", "sigma_pt", "z", "zeta", "E_n",
+                     "zeta_verdict", "E_n_verdict"])
+    for r in result.rounds:
+        writer.writerow([_cell(r.name), repr(r.assigned), repr(r.u_assigned), repr(r.result), repr(r.expanded),
+                         repr(r.k), "" if r.sigma_pt is None else repr(r.sigma_pt),
+                         "" if r.z is None else repr(r.z), repr(r.zeta), repr(r.en), r.verdict_zeta, r.verdict_en])
+    return buffer.getvalue()
+
+
+def _cell(text: str) -> str:
+    """Text for a CSV cell that a spreadsheet will not read as a formula."""
+    return "'" + text if text[:1] in ("=", "+", "-", "@", "\t", "\r") else text
+
+
+def proficiency_chart(result: Proficiency) -> str:
+    """zeta (and z, E_n where given) per round with the 2 and 3 action lines; SVG text."""
+    from .charts import _figure, _svg
+
+    rounds = result.rounds
+    plt, fig, ax = _figure(2.6)
+    xs = list(range(len(rounds)))
+    ax.plot(xs, [r.zeta for r in rounds], marker="o", color="black", linestyle="solid", linewidth=1.0,
+            label="zeta (lab's u)")
+    ax.plot(xs, [r.en for r in rounds], marker="s", color="#555555", linestyle="dotted", linewidth=1.0,
+            label="E_n")
+    zs = [(x, r.z) for x, r in zip(xs, rounds, strict=True) if r.z is not None]
+    if zs:
+        ax.plot([x for x, _ in zs], [z for _, z in zs], marker="^", color="#777777", linestyle="dashed",
+                linewidth=0.8, label="z (sigma_pt)")
+    for level, style in ((2, "dashed"), (3, "solid")):
+        ax.axhline(level, color="black", linestyle=style, linewidth=0.6)
+        ax.axhline(-level, color="black", linestyle=style, linewidth=0.6)
+    ax.axhline(0, color="#999999", linewidth=0.5)
+    ax.set_xticks(xs, [r.name[:20] for r in rounds], rotation=45, ha="right", fontsize=7)
+    ax.set_ylabel("score")
+    ax.legend(fontsize=7, frameon=False, loc="upper left")
+    title = "PT scores; dashed ±2, solid ±3" + (" — stated U looks too small" if result.u_too_small else "")
+    ax.set_title(title, fontsize=10, loc="left")
+    return _svg(plt, fig)
