@@ -262,6 +262,37 @@ def batch_command(
         raise typer.Exit(EXIT_BAD_INPUT)
 
 
+@app.command("compare")
+def compare_command(
+    budget: BudgetArg,
+    data: Annotated[Path, typer.Argument(help="QC data, .csv or .xlsx: results of a control sample", show_default=False)],
+    column: Annotated[str | None, typer.Option("--column", help="column of results (default: the measurand's "
+                                               "symbol, 'value' or 'result')")] = None,
+    run_column: Annotated[str | None, typer.Option("--run-column", help="column naming each result's run")] = None,
+    level_column: Annotated[str | None, typer.Option("--level-column", help="column naming the control level, "
+                                                     "for several control samples")] = None,
+    format: Annotated[Format, typer.Option("--format", "-f", help="text or json")] = Format.text,
+) -> None:
+    """Set the budget's u against the within-lab reproducibility the QC data show: ratio, F-test, verdict."""
+    from .errors import UcalcError
+    from .qc.compare import compare
+    from .reports import qc
+
+    try:
+        if format not in (Format.text, Format.json):
+            raise UcalcError("--format for compare is text or json")
+        result = compare(budget, data, column, run_column, level_column)
+    except UcalcError as exc:
+        _fail(exc)
+        return
+    if format is Format.json:
+        from .reports.jsonout import dumps
+
+        typer.echo(dumps(qc.to_json(result)))
+        return
+    qc.render_comparison(_console(), result)
+
+
 @app.command("proficiency")
 def proficiency_command(
     table: Annotated[Path, typer.Argument(help="rounds table, .csv or .xlsx: round, assigned, u_assigned, result, U "

@@ -11,6 +11,7 @@ from .common import num
 if TYPE_CHECKING:
     from rich.console import Console
 
+    from ..qc.compare import Comparison
     from ..qc.proficiency import Proficiency
 
 
@@ -102,3 +103,35 @@ def proficiency_chart(result: Proficiency) -> str:
     title = "PT scores; dashed ±2, solid ±3" + (" — stated U looks too small" if result.u_too_small else "")
     ax.set_title(title, fontsize=10, loc="left")
     return _svg(plt, fig)
+
+
+# ---- compare ---------------------------------------------------------------------------------------------
+
+
+def render_comparison(console: Console, result: Comparison) -> None:
+    from rich.markup import escape
+    from rich.table import Table
+
+    from ..qc.compare import VERDICTS
+    from .common import dof_text
+    from .document import pretty_unit
+
+    unit = pretty_unit(result.unit)
+    u = f" {unit}" if unit else ""
+    console.print(escape(f"budget: {result.measurand} = {num(result.budget_value, 5)}{u}, u_c = "
+                         f"{num(result.budget_u, 3)}{u} ({100 * result.budget_u / abs(result.budget_value):.2f} %), "
+                         f"dof {dof_text(result.budget_dof)}"))
+    table = Table(header_style="bold", title="Budget against QC reproducibility", title_justify="left")
+    for col in ("level", "QC mean", "n", f"s_Rw{u}", "dof", f"u budget{u}", "ratio u/s", "F = s²/u²", "p",
+                "share explained", "verdict"):
+        table.add_column(escape(col), justify="left" if col in ("level", "verdict") else "right")
+    for c in result.levels:
+        table.add_row(escape(c.level or "all"), num(c.qc_mean, 4), str(c.qc_n), num(c.s_rw, 3),
+                      dof_text(c.dof_qc), num(c.u_budget, 3), f"{c.ratio:.2f}", f"{c.f:.2f}", f"{c.p_value:.3g}",
+                      f"{100 * c.share_explained:.0f} %", c.verdict)
+    console.print(table)
+    for c in result.levels:
+        console.print(escape(f"{c.level or 'QC data'}: {VERDICTS[c.verdict]} (two-sided F-test at 5 %, dof "
+                             f"{dof_text(c.dof_qc)} and {dof_text(c.dof_budget)}; {c.qc_source})"))
+    for note in result.notes:
+        console.print(escape(f"note: {note}"))
