@@ -265,7 +265,8 @@ def batch_command(
 @app.command("compare")
 def compare_command(
     budget: BudgetArg,
-    data: Annotated[Path, typer.Argument(help="QC data, .csv or .xlsx: results of a control sample", show_default=False)],
+    data: Annotated[Path, typer.Argument(help="QC data, .csv or .xlsx: control-sample results",
+                                         show_default=False)],
     column: Annotated[str | None, typer.Option("--column", help="column of results (default: the measurand's "
                                                "symbol, 'value' or 'result')")] = None,
     run_column: Annotated[str | None, typer.Option("--run-column", help="column naming each result's run")] = None,

@@ -15,7 +15,6 @@ as a relative uncertainty, u_b = (u_c/y) * mean_QC. Then
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 from pathlib import Path
 
