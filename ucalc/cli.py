@@ -18,7 +18,7 @@ import typer
 if TYPE_CHECKING:
     from rich.console import Console
 
-app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_enable=False,
+app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_enable=False, rich_markup_mode=None,
                   help="Measurement-uncertainty budgets: check, propagate (GUM, Monte Carlo), report, plan "
                   "improvements and attach results to sample tables.")
 

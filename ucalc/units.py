@@ -20,10 +20,18 @@ _TRANSCENDENTAL = ("exp", "log", "log10", "sin", "cos", "tan")
 
 @lru_cache(maxsize=1)
 def registry() -> Any:
-    """The one pint registry (created on first use; pint is slow to import)."""
+    """The one pint registry, created on first use.
+
+    Parsing pint's unit definitions takes longer than importing numpy, so pint's own disk cache of the parsed
+    definitions is used (in the user's cache folder); an unwritable or half-written cache falls back to parsing.
+    """
     import pint
 
-    reg: Any = pint.UnitRegistry(autoconvert_offset_to_baseunit=False)
+    reg: Any
+    try:
+        reg = pint.UnitRegistry(autoconvert_offset_to_baseunit=False, cache_folder=":auto:")
+    except Exception:  # pint's cache raises OS, pickle and EOF errors alike
+        reg = pint.UnitRegistry(autoconvert_offset_to_baseunit=False)
     reg.define("ppb = 1e-9 = ppb")  # parts per billion, beside pint's own ppm
     return reg
 
