@@ -30,7 +30,7 @@ def registry() -> Any:
     reg: Any
     try:
         reg = pint.UnitRegistry(autoconvert_offset_to_baseunit=False, cache_folder=":auto:")
-    except Exception:  # pint's cache raises OS, pickle and EOF errors alike
+    except Exception:  # a damaged cache file raises one of several unrelated types
         reg = pint.UnitRegistry(autoconvert_offset_to_baseunit=False)
     reg.define("ppb = 1e-9 = ppb")  # parts per billion, beside pint's own ppm
     return reg
