@@ -25,6 +25,7 @@ class Component:
     kind: Literal["A", "B"] = "B"
     origin: str = ""
     relative: bool = False  # the scale is proportional to the quantity's value (batch rows rescale it)
+    per_use: bool = False  # drawn anew at each use of a shared item (a filling, a reading): not shared
 
     @property
     def standard_uncertainty(self) -> float:
@@ -195,6 +196,8 @@ class Budget:
     warnings: tuple[str, ...] = ()
     working: dict[str, tuple[str, tuple[str, ...]]] = field(default_factory=dict)
     settings: tuple[str, ...] = ()  # --set changes applied in memory: the budget differs from its file
+    correlation_origins: dict[tuple[str, str], str] = field(default_factory=dict)  # why each r exists
+    details: dict[str, dict[str, Any]] = field(default_factory=dict)  # input models' numbers, by input
 
     def estimates(self) -> dict[str, float]:
         return {name: q.value for name, q in self.quantities.items()}

@@ -164,7 +164,22 @@ def _build(doc: Document) -> Budget:
         for e in validation_errors(exc, BudgetSpec, doc, (), ""):
             errors.append(_subject_from_rule(e))
 
+    raw_items = top.get("items")
+    uses = None
+    if isinstance(raw_items, dict) and isinstance(raw_inputs, dict):
+        from ..inputs import shared
+
+        raw_inputs, uses = shared.resolve(raw_items, raw_inputs)
+        for path, item in uses.unknown:
+            errors.append(BudgetError(f"unknown item '{item}'; items declared: {', '.join(raw_items) or 'none'}",
+                                      location=doc.locate((*path, "use")), subject=f"input '{path[1]}'"))
     built = _build_inputs(raw_inputs, doc, errors)
+    if uses is not None:
+        for a, b, r, origin in shared.correlations(uses, built.quantities):
+            built.correlations[(a, b) if a < b else (b, a)] = r
+            built.origins[(a, b) if a < b else (b, a)] = origin
+        built.warnings += tuple(f"item '{item}' is declared but not used" for item, names in uses.by_item.items()
+                                if not names)
     quantities, correlations_extra, failed = built.quantities, built.correlations, built.failed
 
     measurand = _part(top, "measurand", MeasurandSpec, doc, spec)
@@ -174,9 +189,12 @@ def _build(doc: Document) -> Budget:
         model = _build_model(top["model"], measurand, quantities, failed, doc, errors, built.lines)
 
     correlations = dict(correlations_extra)
+    origins = dict(built.origins)
     raw_corr = top.get("correlations")
     if isinstance(raw_corr, list):
-        correlations.update(_build_correlations(raw_corr, quantities, doc, errors))
+        stated = _build_correlations(raw_corr, quantities, doc, errors)
+        correlations.update(stated)
+        origins.update({pair: "stated in the budget ('correlations')" for pair in stated})
 
     if model is not None and not errors:
         _check_at_estimate(model, quantities, doc, errors)
@@ -201,6 +219,8 @@ def _build(doc: Document) -> Budget:
         source=doc.file,
         warnings=warnings,
         working=built.working,
+        correlation_origins=origins,
+        details=built.details,
     )
 
 
@@ -244,6 +264,8 @@ class _Inputs:
     warnings: tuple[str, ...] = ()
     failed: set[str] = field(default_factory=set)
     working: dict[str, tuple[str, tuple[str, ...]]] = field(default_factory=dict)
+    origins: dict[tuple[str, str], str] = field(default_factory=dict)
+    details: dict[str, dict[str, Any]] = field(default_factory=dict)
 
 
 def _same_quantity(a: Quantity, b: Quantity) -> bool:
@@ -306,8 +328,12 @@ def _build_input(name: str, raw: Any, doc: Document, errors: list[BudgetError], 
             errors.append(BudgetError("value or uncertainty is not a finite number",
                                       location=doc.locate(path), subject=subject))
         out.quantities[q.name] = q
-    for a, b, r in derived.correlations:
+    for i, (a, b, r) in enumerate(derived.correlations):
         out.correlations[(a, b) if a < b else (b, a)] = r
+        out.origins[(a, b) if a < b else (b, a)] = (derived.origins[i] if i < len(derived.origins)
+                                                    else f"input model of '{name}'")
+    if derived.details:
+        out.details[name] = derived.details
     if derived.expression:
         out.lines.append((name, derived.expression, doc.locate(path, key=True)))
         out.working[name] = (getattr(module, "__name__", "").rsplit(".", 1)[-1], derived.working)

@@ -60,6 +60,7 @@ class BudgetSpec(_Strict):
     coverage: CoverageSpec = Field(default_factory=lambda: CoverageSpec(probability=0.95))
     inputs: dict[str, dict[str, Any]] = Field(min_length=1)
     correlations: list[CorrelationSpec] = Field(default_factory=list)
+    items: dict[str, dict[str, Any]] = Field(default_factory=dict)  # shared items, see ucalc.inputs.shared
     description: str | None = None
 
     @field_validator("ucalc")
@@ -69,7 +70,7 @@ class BudgetSpec(_Strict):
             raise ValueError(f"budget format version {v} is not supported; this ucalc reads version 1")
         return v
 
-    @field_validator("inputs")
+    @field_validator("inputs", "items")
     @classmethod
     def _names(cls, v: dict[str, Any]) -> dict[str, Any]:
         for name in v:

@@ -81,15 +81,16 @@ def components(spec: BalanceSpec, unit: str) -> tuple[float, tuple[Component, ..
             comps.append(Component("readability" + (f" ({_ + 1})" if weighings == 2 else ""),
                                    Distribution("rectangular", spec.readability / 2.0), "B",
                                    f"digit {spec.readability:g} {unit}: half-width {spec.readability / 2:g}, "
-                                   f"rectangular, divisor sqrt(3){times}"))
+                                   f"rectangular, divisor sqrt(3){times}", per_use=True))
         if spec.linearity is not None:
             comps.append(Component("linearity" + (f" ({_ + 1})" if weighings == 2 else ""),
                                    Distribution("rectangular", spec.linearity), "B",
-                                   f"half-width {spec.linearity:g} {unit}, rectangular, divisor sqrt(3){times}"))
+                                   f"half-width {spec.linearity:g} {unit}, rectangular, divisor sqrt(3){times}",
+                                   per_use=True))
         if spec.repeatability is not None:
             comps.append(Component("repeatability" + (f" ({_ + 1})" if weighings == 2 else ""),
                                    Distribution("normal", spec.repeatability), "B",
-                                   f"standard deviation {spec.repeatability:g} {unit}{times}"))
+                                   f"standard deviation {spec.repeatability:g} {unit}{times}", per_use=True))
     u = math.sqrt(sum(c.standard_uncertainty**2 for c in comps))
     working.append(f"u(m) = {u:.4g} {unit} from {len(comps)} components")
     return mass, tuple(comps), working

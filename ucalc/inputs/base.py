@@ -25,7 +25,8 @@ class Derived:
     ``correlations``: (a, b, r) among them; ``expression``: when set, the input is not a quantity but this
     expression over auxiliary quantities, inserted as a model line (so each item stays its own row in the
     budget table); ``warnings``: text for the user; ``working``: how an expression input was
-    obtained (a quantity carries its own).
+    obtained (a quantity carries its own); ``origins``: why each correlation exists (parallel to
+    ``correlations``); ``details``: the model's numbers as plain data for the JSON output.
     """
 
     quantities: tuple[Quantity, ...]
@@ -33,6 +34,8 @@ class Derived:
     expression: str | None = None
     warnings: tuple[str, ...] = field(default=())
     working: tuple[str, ...] = ()
+    origins: tuple[str, ...] = ()
+    details: dict[str, Any] = field(default_factory=dict)
 
 
 class InputSpec(BaseModel):

@@ -1,15 +1,14 @@
-"""A straight-line calibration from raw data, and the concentration it predicts for a sample.
+"""A calibration function from raw data, and the concentrations it predicts for the readings of a run.
 
-Least squares (ordinary or weighted) of responses y on standards x gives slope b, intercept a, the residual
-standard deviation s (dof n - 2, or n - 1 through the origin) and their covariance s^2 (X'WX)^-1. The sample's
-mean response y0 of p readings predicts x0 = (y0 - a)/b with
-
-    u^2(x0) = [ s^2/(p w0) + var(a + b x0) ] / b^2,
-
-which for unweighted data is the ISO 8466-1 / EURACHEM/CITAC CG4 (A5.4) formula
-u(x0) = s/b sqrt(1/p + 1/n + (x0 - xbar)^2/Sxx); w0 is the weight at x0. Standard additions give the
-x-intercept a/b with its first-order variance. The input model also offers ``name.slope`` and
-``name.intercept`` (with their correlation) for budgets that write the calibration equation themselves.
+Least squares (ordinary or weighted) of responses y on standards x gives the straight line y = a + b x
+(ISO 8466-1) or the second-order function y = a + b x + c x^2 (ISO 8466-2), the residual standard deviation s
+(dof n - m) and the covariance s^2 (X'WX)^-1 of the coefficients (:mod:`.calibration_fit`). A reading's mean
+response y0 of p readings predicts x0 with f(x0) = y0 and, for the straight line unweighted, the ISO 8466-1 /
+EURACHEM/CITAC CG4 (A5.4) u(x0) = s/b sqrt(1/p + 1/n + (x0 - xbar)^2/Sxx). Several named readings (sample,
+duplicate, blank, QC) predicted from one line are correlated through the shared coefficients; the full
+covariance enters the budget as correlation coefficients. Responses may be given as raw analyte and
+internal-standard count rates (:mod:`.internal_standard`). Standard additions give the x-intercept a/b with its
+first-order variance. The ISO 8466-1 diagnostics are in :mod:`.calibration_checks`.
 """
 
 from __future__ import annotations
@@ -17,49 +16,121 @@ from __future__ import annotations
 import math
 from typing import Any, ClassVar, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, model_validator
+from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
 
 from ..budget.definitions import Component, Quantity
 from ..distributions import Distribution
 from ..errors import Location
 from .base import Derived, InputSpec
+from .internal_standard import DEFAULT_WINDOW, ReadingSignals, StandardSignals
+
+COEFFICIENTS = ("intercept", "slope", "quadratic")
+RESERVED = set(COEFFICIENTS)
 
 
 class CalibrationSpec(BaseModel):
     model_config = ConfigDict(extra="forbid", allow_inf_nan=False, strict=True)
 
     standards: list[float] = Field(min_length=1, max_length=10_000)
-    responses: list[float | list[float]] = Field(min_length=1, max_length=10_000)
-    sample: list[float] | None = Field(default=None, min_length=1, max_length=10_000)
+    responses: list[float | list[float]] | None = Field(default=None, min_length=1, max_length=10_000)
+    signals: StandardSignals | None = None
+    sample: list[float] | ReadingSignals | None = None
+    readings: dict[str, list[float] | ReadingSignals] | None = Field(default=None, min_length=1, max_length=100)
+    function: Literal["linear", "quadratic"] = "linear"
     weighting: Literal["none", "inverse_x", "inverse_x2", "inverse_variance"] = "none"
     through_origin: bool = False
     method: Literal["external", "standard_additions"] = "external"
     strict: bool = False
+    is_recovery: list[float] = Field(default=list(DEFAULT_WINDOW), min_length=2, max_length=2)
     unit: str | None = Field(default=None, max_length=100)
     response_unit: str | None = Field(default=None, max_length=100)
 
+    @field_validator("sample")
+    @classmethod
+    def _sample(cls, v: Any) -> Any:
+        if isinstance(v, list) and not 1 <= len(v) <= 10_000:
+            raise ValueError("give between 1 and 10000 sample readings")
+        return v
+
+    @field_validator("readings")
+    @classmethod
+    def _readings(cls, v: dict[str, Any] | None) -> dict[str, Any] | None:
+        from ..budget.schema import check_name
+
+        for key, value in (v or {}).items():
+            check_name(key)
+            if key in RESERVED:
+                raise ValueError(f"reading '{key}' would clash with the coefficient '{key}'; choose another name")
+            if isinstance(value, list) and not 1 <= len(value) <= 10_000:
+                raise ValueError(f"reading '{key}': give between 1 and 10000 readings")
+        return v
+
     @model_validator(mode="after")
     def _check(self) -> CalibrationSpec:
-        if len(self.responses) != len(self.standards):
-            raise ValueError(f"{len(self.standards)} standards but {len(self.responses)} responses; give one "
+        if (self.responses is None) == (self.signals is None):
+            raise ValueError("give either 'responses' or raw 'signals' (analyte and internal_standard) per standard")
+        raw = self.signals is not None
+        given = [self.sample] if self.sample is not None else []
+        given += list((self.readings or {}).values())
+        if any(isinstance(g, ReadingSignals) != raw for g in given):
+            raise ValueError("readings must be given like the standards: raw 'analyte' and 'internal_standard' "
+                             "signals with 'signals', responses otherwise")
+        n_resp = len(self.signals.analyte) if self.signals is not None else len(self.responses or [])
+        if n_resp != len(self.standards):
+            raise ValueError(f"{len(self.standards)} standards but {n_resp} responses; give one "
                              "response (or one list of replicate responses) per standard")
-        if any(isinstance(r, list) and not r for r in self.responses):
+        if any(isinstance(r, list) and not r for r in self.responses or []):
             raise ValueError("a list of replicate responses is empty")
-        if len(set(self.standards)) < 3:
-            raise ValueError(f"a calibration needs at least 3 distinct standards (got {len(set(self.standards))})")
+        distinct = len(set(self.standards))
+        needed = 4 if self.function == "quadratic" else 3
+        if distinct < needed:
+            raise ValueError(f"a {self.function} calibration needs at least {needed} distinct standards "
+                             f"(got {distinct})")
         if any(x < 0 for x in self.standards):
             raise ValueError("standards must not be negative: they are concentrations or added amounts")
         if self.weighting in ("inverse_x", "inverse_x2") and any(x <= 0 for x in self.standards):
             raise ValueError(f"weighting '{self.weighting}' needs every standard above zero")
-        if self.weighting == "inverse_variance" and any(not isinstance(r, list) or len(r) < 2
-                                                         for r in self.responses):
+        if self.weighting == "inverse_variance" and any(len(r) < 2 for r in self.response_lists()):
             raise ValueError("weighting 'inverse_variance' needs at least 2 replicate responses per standard")
+        low, high = self.is_recovery
+        if not 0 < low < high:
+            raise ValueError(f"is_recovery must be [low, high] in % with 0 < low < high (got {self.is_recovery})")
+        if self.function == "quadratic" and self.through_origin:
+            raise ValueError("the second-order function is fitted with its intercept; remove 'through_origin'")
         if self.method == "standard_additions":
             if self.through_origin:
                 raise ValueError("standard additions cannot be fitted through the origin")
-            if self.sample is not None:
+            if self.function == "quadratic":
+                raise ValueError("standard additions use a straight line")
+            if self.sample is not None or self.readings:
                 raise ValueError("with standard additions the sample is the line itself; remove 'sample'")
         return self
+
+    def response_lists(self) -> list[list[float]]:
+        """Responses per standard as lists of readings (ratios per reading for raw signals)."""
+        from .internal_standard import ratios
+
+        if self.signals is not None:
+            return [ratios(a, i) for a, i in zip(self.signals.analyte, self.signals.internal_standard, strict=True)]
+        return [r if isinstance(r, list) else [r] for r in self.responses or []]
+
+    def fit_responses(self) -> list[float | list[float]]:
+        return list(self.response_lists()) if self.signals is not None else list(self.responses or [])
+
+    def reading_values(self) -> dict[str, list[float]]:
+        """Name -> response readings (ratios for raw signals): '' for ``sample``, then ``readings``."""
+        from .internal_standard import ratios
+
+        items: dict[str, Any] = {}
+        if self.sample is not None:
+            items[""] = self.sample
+        items.update(self.readings or {})
+        return {k: (ratios(v.analyte, v.internal_standard) if isinstance(v, ReadingSignals) else v)
+                for k, v in items.items()}
+
+    @property
+    def order(self) -> int:
+        return 2 if self.function == "quadratic" else 1
 
 
 class Spec(InputSpec):
@@ -68,77 +139,11 @@ class Spec(InputSpec):
     calibration: CalibrationSpec
 
 
-def fit(spec: CalibrationSpec) -> dict[str, Any]:
-    """Weighted least-squares line; returns coefficients, covariance, residual s, dof and the points."""
-    import numpy as np
+def fit(spec: CalibrationSpec) -> Any:
+    """The least-squares fit of a calibration spec (:func:`.calibration_fit.fit`)."""
+    from .calibration_fit import fit as fit_data
 
-    xs: list[float] = []
-    ys: list[float] = []
-    levels_var: list[tuple[float, float]] = []
-    for level, r in zip(spec.standards, spec.responses, strict=True):
-        reps = r if isinstance(r, list) else [r]
-        xs.extend([level] * len(reps))
-        ys.extend(reps)
-        levels_var.append((level, float(np.var(reps, ddof=1)) if len(reps) > 1 else math.nan))
-    x, y = np.array(xs, dtype=float), np.array(ys, dtype=float)
-    if spec.weighting == "inverse_x":
-        w = 1.0 / x
-    elif spec.weighting == "inverse_x2":
-        w = 1.0 / x**2
-    elif spec.weighting == "inverse_variance":
-        var = dict(levels_var)
-        if any(v <= 0 for v in var.values()):
-            raise ValueError("a standard's replicate responses are identical; inverse-variance weights need scatter")
-        w = np.array([1.0 / var[xi] for xi in xs])
-    else:
-        w = np.ones_like(x)
-    design = x[:, None] if spec.through_origin else np.column_stack([np.ones_like(x), x])
-    normal = design.T @ (w[:, None] * design)
-    beta = np.linalg.solve(normal, design.T @ (w * y))
-    resid = y - design @ beta
-    dof = len(x) - design.shape[1]
-    if dof < 1:
-        raise ValueError("too few calibration points for a residual standard deviation")
-    s2 = float(np.sum(w * resid**2) / dof)
-    cov = s2 * np.linalg.inv(normal)
-    a, b = (0.0, float(beta[0])) if spec.through_origin else (float(beta[0]), float(beta[1]))
-    var_a = 0.0 if spec.through_origin else float(cov[0, 0])
-    var_b = float(cov[-1, -1])
-    cov_ab = 0.0 if spec.through_origin else float(cov[0, 1])
-    return {"a": a, "b": b, "var_a": var_a, "var_b": var_b, "cov_ab": cov_ab, "s2": s2, "dof": dof,
-            "n": len(x), "x": x, "w": w, "levels_var": levels_var}
-
-
-def _weight_at(spec: CalibrationSpec, f: dict[str, Any], x0: float) -> float:
-    """Weight of a single reading at x0, on the scale of the fitted weights."""
-    import numpy as np
-
-    if spec.weighting == "none":
-        return 1.0
-    if spec.weighting in ("inverse_x", "inverse_x2"):
-        if x0 <= 0:
-            raise ValueError(f"the sample lies at x = {x0:.4g} <= 0, where weighting '{spec.weighting}' is undefined")
-        return 1.0 / x0 if spec.weighting == "inverse_x" else 1.0 / x0**2
-    levels = sorted(f["levels_var"])
-    variance = float(np.interp(x0, [lv[0] for lv in levels], [lv[1] for lv in levels]))
-    return 1.0 / variance
-
-
-def predict(spec: CalibrationSpec, f: dict[str, Any]) -> tuple[float, float, float, list[str]]:
-    """(x0, u(x0), y0, working) for the sample of an external calibration."""
-    assert spec.sample is not None
-    a, b = f["a"], f["b"]
-    p = len(spec.sample)
-    y0 = math.fsum(spec.sample) / p
-    x0 = (y0 - a) / b
-    w0 = _weight_at(spec, f, x0)
-    var_y0 = f["s2"] / (p * w0)
-    var_fit = f["var_a"] + x0 * x0 * f["var_b"] + 2 * x0 * f["cov_ab"]
-    u = math.sqrt(var_y0 + var_fit) / abs(b)
-    working = [f"sample: mean response y0 = {y0:.6g} of p = {p} readings",
-               f"x0 = (y0 - a)/b = {x0:.6g}; u(x0) = sqrt(s^2/(p w0) + var(a + b x0))/|b| = {u:.4g} "
-               "(ISO 8466-1, CG4 A5)"]
-    return x0, u, y0, working
+    return fit_data(spec.standards, spec.fit_responses(), spec.weighting, spec.order, spec.through_origin)
 
 
 def derive(name: str, spec: Spec, location: Location) -> Derived:
@@ -152,84 +157,171 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
             from None
 
 
+def _clip(r: float) -> float:
+    return max(-1.0, min(1.0, r))
+
+
 def _derive(name: str, spec: Spec, location: Location) -> Derived:
+    import numpy as np
     from scipy import stats
+
+    from .calibration_checks import diagnose
+    from .calibration_fit import predict
 
     cs = spec.calibration
     f = fit(cs)
-    a, b, dof = f["a"], f["b"], float(f["dof"])
+    dof = float(f.dof)
+    coef_names = ("slope",) if cs.through_origin else COEFFICIENTS[:cs.order + 1]
+    coef = {k: float(v) for k, v in zip(coef_names, f.coef, strict=True)}
+    u_coef = {k: math.sqrt(float(f.cov[i, i])) for i, k in enumerate(coef_names)}
+    b = coef["slope"]
     if b == 0.0 or not math.isfinite(b):
         raise ValueError("the calibration slope is zero; the responses do not depend on the standards")
     unit = spec.unit or ""
     runit = cs.response_unit or ""
-    slope_unit = f"({runit or '1'})/({unit})" if unit else runit
-    s = math.sqrt(f["s2"])
-    levels = len(set(cs.standards))
+    coef_units = {"intercept": runit, "slope": f"({runit or '1'})/({unit})" if unit else runit,
+                  "quadratic": f"({runit or '1'})/({unit})**2" if unit else runit}
+    s = math.sqrt(f.s2)
+    lo, hi = min(cs.standards), max(cs.standards)
+    shape = "y = a + b·x + c·x² (ISO 8466-2)" if cs.order == 2 else "y = a + b·x (ISO 8466-1)"
     working = [
-        f"{f['n']} points at {levels} standards, weighting {cs.weighting}"
-        + (", through the origin" if cs.through_origin else ""),
-        f"slope b = {b:.6g} (u {math.sqrt(f['var_b']):.3g}), intercept a = {a:.6g} "
-        f"(u {math.sqrt(f['var_a']):.3g}), residual s = {s:.4g}, dof {int(dof)}",
+        f"{f.n} points at {len(set(cs.standards))} standards, {shape}, weighting {cs.weighting}"
+        + (", through the origin" if cs.through_origin else "")
+        + (", responses = analyte/internal-standard ratio per reading" if cs.signals is not None else ""),
+        ", ".join(f"{k} = {coef[k]:.6g} (u {u_coef[k]:.3g})" for k in reversed(coef_names))
+        + f", residual s = {s:.4g}, dof {int(dof)}",
     ]
     warnings: list[str] = []
-    t95 = float(stats.t.ppf(0.975, dof))
-    if abs(b) < t95 * math.sqrt(f["var_b"]):
+    if abs(b) < float(stats.t.ppf(0.975, dof)) * u_coef["slope"]:
         warnings.append("the calibration slope does not differ significantly from zero")
-    quantities: list[Quantity] = []
+    checks = diagnose(f, cs.standards, cs.response_lists())
+    warnings.extend(checks.warnings)
+    working.extend(checks.notes)
+    if checks.mandel is not None:
+        working.append(f"Mandel test (ISO 8466-1): PG = {checks.mandel['pg']:.3g}, F(1, "
+                       f"{int(checks.mandel['dof2'])}; 99 %) = {checks.mandel['f_critical']:.3g}")
+    if checks.homoscedasticity is not None:
+        h = checks.homoscedasticity
+        working.append(f"ends of the range (ISO 8466-1): s = {h['s_low']:.3g} and {h['s_high']:.3g}, PG = "
+                       f"{h['pg']:.3g}, F({int(h['dof1'])}, {int(h['dof2'])}; 99 %) = {h['f_critical']:.3g}")
     correlations: list[tuple[str, str, float]] = []
-    u_b = math.sqrt(f["var_b"])
-    slope = Quantity(f"{name}.slope", b, slope_unit,
-                     (Component("calibration fit", Distribution("t", u_b, dof), "A", "least squares"),),
-                     description="calibration slope", model="calibration", location=location)
-    intercept = None
-    if not cs.through_origin:
-        u_a = math.sqrt(f["var_a"])
-        intercept = Quantity(f"{name}.intercept", a, runit,
-                             (Component("calibration fit", Distribution("t", u_a, dof), "A", "least squares"),),
-                             description="calibration intercept", model="calibration", location=location)
-        correlations.append((f"{name}.intercept", f"{name}.slope", f["cov_ab"] / (u_a * u_b)))
-    x0: float | None = None
+    origins: list[str] = []
+    coef_q: dict[str, Quantity] = {}
+    for k in coef_names:
+        coef_q[k] = Quantity(f"{name}.{k}", coef[k], coef_units[k],
+                             (Component("calibration fit", Distribution("t", u_coef[k], dof), "A", "least squares"),),
+                             description=f"calibration {k}", model="calibration", location=location)
+    for i, ki in enumerate(coef_names):
+        for j in range(i + 1, len(coef_names)):
+            kj = coef_names[j]
+            correlations.append((f"{name}.{ki}", f"{name}.{kj}",
+                                 _clip(float(f.cov[i, j]) / (u_coef[ki] * u_coef[kj]))))
+            origins.append(f"calibration '{name}': coefficients of one least-squares fit")
+    details: dict[str, Any] = {
+        "model": "calibration", "function": cs.function, "method": cs.method, "weighting": cs.weighting,
+        "through_origin": cs.through_origin, "coefficients": coef, "standard_uncertainties": u_coef,
+        "covariance": {"names": list(coef_names), "matrix": [[float(v) for v in row] for row in f.cov]},
+        "slope": b, "u_slope": u_coef["slope"], "intercept": coef.get("intercept", 0.0),
+        "u_intercept": u_coef.get("intercept", 0.0),
+        "cov_slope_intercept": 0.0 if cs.through_origin else float(f.cov[0, 1]),
+        "residual_sd": s, "dof": int(dof), "points": f.n, "range": [lo, hi],
+        "response_unit": runit, "unit": unit, "diagnostics": checks.as_json(),
+    }
+    quantities: list[Quantity] = []
     if cs.method == "standard_additions":
+        var_a, var_b, cov_ab = float(f.cov[0, 0]), float(f.cov[1, 1]), float(f.cov[0, 1])
+        a = coef["intercept"]
         x0 = a / b
-        var = (f["var_a"] + x0 * x0 * f["var_b"] - 2 * x0 * f["cov_ab"]) / (b * b)
-        u = math.sqrt(var)
-        cov_x_a = (f["var_a"] - x0 * f["cov_ab"]) / b
-        cov_x_b = (f["cov_ab"] - x0 * f["var_b"]) / b
+        u = math.sqrt((var_a + x0 * x0 * var_b - 2 * x0 * cov_ab) / (b * b))
         working.append(f"standard additions: x = a/b = {x0:.6g}, u = {u:.4g} (first order in a and b)")
-    elif cs.sample is not None:
-        x0, u, _, more = predict(cs, f)
-        working.extend(more)
-        cov_x_a = (-f["var_a"] - x0 * f["cov_ab"]) / b
-        cov_x_b = (-f["cov_ab"] - x0 * f["var_b"]) / b
-    if x0 is not None:
-        lo, hi = min(cs.standards), max(cs.standards)
-        if cs.method == "external" and not lo <= x0 <= hi:
-            message = f"the sample (x0 = {x0:.4g}) lies outside the calibrated range [{lo:g}, {hi:g}]"
-            if cs.strict:
-                raise ValueError(message)
-            warnings.append(message)
         comp = Component("calibration (prediction)", Distribution("t", u, dof), "A",
-                         f"u(x0) = {u:.4g} from the calibration line, dof {int(dof)}")
+                         f"u(x) = {u:.4g} from the calibration line, dof {int(dof)}")
         quantities.append(Quantity(name, x0, unit, (comp,), description=spec.description or "",
                                    model="calibration", working=tuple(working), location=location))
-        correlations.append((name, f"{name}.slope", max(-1.0, min(1.0, cov_x_b / (u * u_b)))))
-        if intercept is not None:
-            r_xa = cov_x_a / (u * intercept.standard_uncertainty)
-            correlations.append((name, f"{name}.intercept", max(-1.0, min(1.0, r_xa))))
-    else:
-        slope = Quantity(slope.name, slope.value, slope.unit, slope.components, slope.description, slope.model,
-                         tuple(working), location)
-    quantities.append(slope)
-    if intercept is not None:
-        quantities.append(intercept)
-    return Derived(tuple(quantities), tuple(correlations), warnings=tuple(warnings))
+        for k, cov_xk in (("intercept", (var_a - x0 * cov_ab) / b), ("slope", (cov_ab - x0 * var_b) / b)):
+            correlations.append((name, f"{name}.{k}", _clip(cov_xk / (u * u_coef[k]))))
+            origins.append(f"calibration '{name}': result from the fitted coefficients")
+        details["predictions"] = {"": {"quantity": name, "value": x0, "standard_uncertainty": u}}
+    values = cs.reading_values()
+    if values:
+        pred = predict(f, values, (lo, hi))
+        qnames = [name if key == "" else f"{name}.{key}" for key in pred.names]
+        u_pred = np.sqrt(np.diag(pred.cov))
+        recoveries = _recoveries(cs, pred.names, warnings)
+        predictions: dict[str, Any] = {}
+        for i, (key, qname) in enumerate(zip(pred.names, qnames, strict=True)):
+            x0, u, y0, p = float(pred.x0[i]), float(u_pred[i]), float(pred.y0[i]), int(pred.p[i])
+            label = "sample" if key == "" else f"reading '{key}'"
+            lines = [f"{label}: mean response y0 = {y0:.6g} of p = {p} readings",
+                     f"x0 = f⁻¹(y0) = {x0:.6g}; u(x0) = sqrt(s²/(p·w0) + g'·Cov·g)/|f'(x0)| = {u:.4g} "
+                     "(ISO 8466-1, ISO 8466-2, CG4 A5)"]
+            if x0 > hi:
+                message = f"{label} (x0 = {x0:.4g}) lies above the calibrated range [{lo:g}, {hi:g}]"
+                if cs.strict:
+                    raise ValueError(message.replace("above", "outside"))
+                warnings.append(message.replace("above", "outside"))
+            elif x0 < lo:
+                lines.append(f"below the lowest standard ({lo:g}): a blank-level result, compare it with the "
+                             "detection and quantification limits")
+            if key in recoveries:
+                lines.append(f"internal-standard recovery {recoveries[key]:.1f} % of the standards' mean")
+            comp = Component("calibration (prediction)", Distribution("t", u, dof), "A",
+                             f"u(x0) = {u:.4g} from the calibration line, dof {int(dof)}")
+            own = tuple(working) + tuple(lines) if qname == name or (i == 0 and "" not in pred.names) else \
+                tuple(lines)
+            quantities.append(Quantity(qname, x0, unit, (comp,),
+                                       description=(spec.description or "") if key == "" else f"{label}",
+                                       model="calibration", working=own, location=location))
+            for j, k in enumerate(coef_names):
+                correlations.append((qname, f"{name}.{k}", _clip(float(pred.cov_coef[i, j]) / (u * u_coef[k]))))
+                origins.append(f"calibration '{name}': prediction from the fitted coefficients")
+            for j in range(i):
+                correlations.append((qnames[j], qname, _clip(float(pred.cov[j, i]) / (u_pred[j] * u))))
+                origins.append(f"calibration '{name}': predictions from one line")
+            predictions[key or "sample"] = {"quantity": qname, "mean_response": y0, "readings": p, "value": x0,
+                                            "standard_uncertainty": u, "dof": int(dof),
+                                            "below_range": x0 < lo, "above_range": x0 > hi,
+                                            "is_recovery_percent": recoveries.get(key)}
+        details["predictions"] = predictions
+        details["prediction_covariance"] = {"names": qnames, "matrix": [[float(v) for v in r] for r in pred.cov]}
+    if cs.signals is not None:
+        from .internal_standard import standards_mean
+
+        details["internal_standard"] = {"standards_mean": standards_mean(cs.signals),
+                                        "recovery_window_percent": list(cs.is_recovery)}
+    if not quantities:
+        slope = coef_q["slope"]
+        coef_q["slope"] = Quantity(slope.name, slope.value, slope.unit, slope.components, slope.description,
+                                   slope.model, tuple(working), location)
+    quantities.extend(coef_q[k] for k in reversed(coef_names))
+    return Derived(tuple(quantities), tuple(correlations), warnings=tuple(warnings), origins=tuple(origins),
+                   details=details)
+
+
+def _recoveries(cs: CalibrationSpec, keys: tuple[str, ...], warnings: list[str]) -> dict[str, float]:
+    """IS recovery of each reading set against the standards' mean, with a warning outside the window."""
+    from .internal_standard import recovery, standards_mean
+
+    if cs.signals is None:
+        return {}
+    reference = standards_mean(cs.signals)
+    given: dict[str, Any] = {"": cs.sample, **(cs.readings or {})}
+    out = {}
+    low, high = cs.is_recovery
+    for key in keys:
+        out[key] = recovery(given[key], reference)
+        if not low <= out[key] <= high:
+            label = "the sample" if key == "" else f"reading '{key}'"
+            warnings.append(f"internal-standard recovery of {label} is {out[key]:.1f} %, outside {low:g}-{high:g} % "
+                            "of the standards' mean: check for matrix suppression or enhancement")
+    return out
 
 
 VIRTUAL_FIELDS = ("p",)
 
 
 def set_field(raw: dict[str, Any], field: str, value: Any) -> dict[str, Any] | None:
-    """``p``: read the sample ``value`` times (the readings given, repeated, keep their mean)."""
+    """``p``: read the sample ``value`` times (the readings given, repeated, keep their mean response)."""
     if field != "p":
         return None
     sample = raw["calibration"].get("sample")
@@ -237,8 +329,14 @@ def set_field(raw: dict[str, Any], field: str, value: Any) -> dict[str, Any] | N
         raise ValueError("p applies to a calibration with sample readings")
     if not isinstance(value, int) or isinstance(value, bool) or value < 1:
         raise ValueError(f"p must be a whole number of readings (got {value!r})")
-    mean = math.fsum(sample) / len(sample)
-    return {**raw, "calibration": {**raw["calibration"], "sample": [mean] * value}}
+    if isinstance(sample, dict):  # raw signals: keep the mean ratio and the mean internal-standard signal
+        pairs = list(zip(sample["analyte"], sample["internal_standard"], strict=True))
+        ratio = math.fsum(a / i for a, i in pairs) / len(pairs)
+        mean_is = math.fsum(i for _, i in pairs) / len(pairs)
+        new: Any = {"analyte": [ratio * mean_is] * value, "internal_standard": [mean_is] * value}
+    else:
+        new = [math.fsum(sample) / len(sample)] * value
+    return {**raw, "calibration": {**raw["calibration"], "sample": new}}
 
 
 def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
@@ -247,41 +345,45 @@ def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
     out = []
     sample = block.get("sample")
     if sample:
-        p = len(sample)
+        p = len(sample["analyte"]) if isinstance(sample, dict) else len(sample)
         for k in (2, 3):
             changed = set_field(raw, "p", k * p)
             assert changed is not None
             out.append((f"{k * p} sample readings instead of {p}", changed))
-    responses = [r if isinstance(r, list) else [r] for r in block["responses"]]
-    doubled = [r + r for r in responses]  # as if each standard were measured again with the same responses
-    out.append(("every calibration standard measured twice as often",
-                {**raw, "calibration": {**block, "responses": doubled}}))
+    # as if each standard were measured again with the same responses
+    if "signals" in block:
+        signals = {key: [list(r) + list(r) for r in block["signals"][key]] for key in ("analyte", "internal_standard")}
+        doubled_block = {**block, "signals": signals}
+    else:
+        responses = [r if isinstance(r, list) else [r] for r in block["responses"]]
+        doubled_block = {**block, "responses": [r + r for r in responses]}
+    out.append(("every calibration standard measured twice as often", {**raw, "calibration": doubled_block}))
     return out
 
 
 def predict_many(spec: CalibrationSpec, responses: Any, readings: int | None = None) -> tuple[Any, Any, float, Any]:
     """Vectorised x0 and u(x0) for many samples' mean responses (each the mean of ``readings`` readings, by
-    default as many as the budget's own sample); returns (x0, u, dof, out_of_range mask)."""
+    default as many as the budget's own sample); returns (x0, u, dof, mask of rows above the calibrated range).
+
+    Rows below the lowest standard, down to zero or a slightly negative net response, are results (blank-level
+    readings, to be compared with the detection and quantification limits); only rows above the range are
+    flagged.
+    """
     import numpy as np
 
+    from .calibration_fit import predict_rows
+
     f = fit(spec)
-    a, b = f["a"], f["b"]
-    if b == 0.0:
+    if float(f.gradient(np.array(0.0))) == 0.0 and spec.order == 1:
         raise ValueError("the calibration slope is zero")
-    y0 = np.asarray(responses, dtype=float)
-    p = readings or (len(spec.sample) if spec.sample else 1)
-    x0 = (y0 - a) / b
-    with np.errstate(all="ignore"):
-        if spec.weighting == "none":
-            w0 = np.ones_like(x0)
-        elif spec.weighting == "inverse_x":
-            w0 = np.where(x0 > 0, 1.0 / x0, np.nan)
-        elif spec.weighting == "inverse_x2":
-            w0 = np.where(x0 > 0, 1.0 / x0**2, np.nan)
-        else:
-            levels = sorted(f["levels_var"])
-            w0 = 1.0 / np.interp(x0, [lv[0] for lv in levels], [lv[1] for lv in levels])
-        var = f["s2"] / (p * w0) + f["var_a"] + x0 * x0 * f["var_b"] + 2 * x0 * f["cov_ab"]
-        u = np.sqrt(var) / abs(b)
-    outside = (x0 < min(spec.standards)) | (x0 > max(spec.standards))
-    return x0, u, float(f["dof"]), outside
+    if readings:
+        p = readings
+    elif spec.sample is None:
+        p = 1
+    else:
+        p = len(spec.sample.analyte) if isinstance(spec.sample, ReadingSignals) else len(spec.sample)
+    span = (min(spec.standards), max(spec.standards))
+    x0, u = predict_rows(f, np.asarray(responses, dtype=float), p, span)
+    with np.errstate(invalid="ignore"):
+        outside = x0 > span[1]
+    return x0, u, float(f.dof), outside

@@ -30,6 +30,11 @@ class Spec(InputSpec):
     dilution: list[Step] = Field(min_length=1, max_length=20)
 
 
+def part_name(name: str, step: int, role: str) -> str:
+    """Name of the quantity for a step's aliquot or final (steps counted from 1): ``D.s1_aliquot``."""
+    return f"{name}.s{step}_{role}"
+
+
 def derive(name: str, spec: Spec, location: Location) -> Derived:
     from .. import units
 
@@ -43,7 +48,6 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
         item_units = []
         for role in ("aliquot", "final"):
             raw = getattr(step, role)
-            item = f"s{i}_{role}"
             module = get_model(model_key(raw))
             if str(getattr(module, "__name__", "")).endswith(".dilution"):
                 raise ValueError(f"step {i} {role}: a dilution cannot contain a dilution")
@@ -54,7 +58,7 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
                 where = ".".join(str(p) for p in first["loc"])
                 raise ValueError(f"step {i} {role}: {where + ': ' if where else ''}"
                                  f"{str(first['msg']).removeprefix('Value error, ')}") from None
-            derived = module.derive(f"{name}.{item}", item_spec, location)
+            derived = module.derive(part_name(name, i, role), item_spec, location)
             quantities.extend(derived.quantities)
             correlations.extend(derived.correlations)
             warnings.extend(derived.warnings)

@@ -109,7 +109,7 @@ def components(spec: GlasswareSpec, unit: str) -> tuple[tuple[Component, ...], l
                                f"half-width {systematic:.4g} {unit}, rectangular, divisor sqrt(3) ({source})"))
         if random_cv is not None and spec.repeatability is None:
             comps.append(Component("random error", Distribution("normal", random_cv), "B",
-                                   f"standard deviation {random_cv:.4g} {unit} ({source})"))
+                                   f"standard deviation {random_cv:.4g} {unit} ({source})", per_use=True))
         working.append(f"piston pipette {nominal:g} {unit}: {source}")
     else:
         if spec.tolerance is not None:
@@ -134,7 +134,7 @@ def components(spec: GlasswareSpec, unit: str) -> tuple[tuple[Component, ...], l
         comps.append(Component("filling repeatability", Distribution("normal" if math.isinf(dof) else "t",
                                                                      spec.repeatability, dof),
                                "A" if not math.isinf(dof) else "B",
-                               f"standard deviation {spec.repeatability:.4g} {unit}"))
+                               f"standard deviation {spec.repeatability:.4g} {unit}", per_use=True))
     return tuple(comps), working
 
 

@@ -10,11 +10,12 @@ two molar masses with an element in common (the lead fraction of a lead salt) is
 
 from __future__ import annotations
 
+import math
 from typing import ClassVar
 
 from pydantic import BaseModel, ConfigDict, Field
 
-from ..budget.definitions import Component, Quantity
+from ..budget.definitions import Component, Quantity, welch_satterthwaite
 from ..distributions import Distribution
 from ..errors import Location
 from .base import Derived, InputSpec
@@ -101,4 +102,13 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
         total += n * value
         working.append(f"{symbol} × {n}: {value:g} ± {half:g} g/mol ({source})")
     working.append(f"M({mm.formula}) = {total:.6f} g/mol")
-    return Derived(tuple(quantities), expression=" + ".join(terms), working=tuple(working))
+    u = math.sqrt(math.fsum((n * q.standard_uncertainty) ** 2 for n, q in zip(atoms.values(), quantities,
+                                                                                strict=True)))
+    # JCGM 100 5.1.2 for a sum with sensitivities n; Welch-Satterthwaite (G.4.1) over the atomic weights
+    dof = welch_satterthwaite([(n * q.standard_uncertainty, q.dof) for n, q in zip(atoms.values(), quantities,
+                                                                                     strict=True)])
+    details = {"model": "molar_mass", "formula": mm.formula, "unit": "g/mol", "value": total,
+               "standard_uncertainty": u, "dof": None if math.isinf(dof) else dof,
+               "atoms": {symbol: {"count": n, "atomic_weight": q.value, "standard_uncertainty": q.standard_uncertainty}
+                         for (symbol, n), q in zip(atoms.items(), quantities, strict=True)}}
+    return Derived(tuple(quantities), expression=" + ".join(terms), working=tuple(working), details=details)

@@ -93,10 +93,18 @@ def gum_json(budget: Budget, result: GumResult) -> dict[str, Any]:
         "defined_inputs": {name: {"model": model, "expression": next(
             (line.text for line in budget.model.lines if line.name == name), ""), "working": list(lines)}
             for name, (model, lines) in budget.working.items()},
+        "input_models": budget.details,
+        "correlations": correlations_json(budget),
         "notes": list(result.notes),
         "warnings": list(budget.warnings),
         "settings": list(budget.settings),
     }
+
+
+def correlations_json(budget: Budget) -> list[dict[str, Any]]:
+    """Every non-zero correlation coefficient with why it exists (budget file, calibration, shared item)."""
+    return [{"between": [a, b], "r": r, "origin": budget.correlation_origins.get((a, b), "")}
+            for (a, b), r in sorted(budget.correlations.items()) if r != 0.0]
 
 
 def dumps(data: dict[str, Any]) -> str:

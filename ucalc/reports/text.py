@@ -111,6 +111,20 @@ def render_working(console: Console, budget: Budget) -> None:
             console.print(escape(f"    {line}"))
 
 
+def render_correlations(console: Console, budget: Budget) -> None:
+    """Correlation coefficients between the model's inputs, with why each exists (stated, input model, item)."""
+    from rich.markup import escape
+
+    used = set(budget.model.inputs)
+    shown = [(a, b, r) for (a, b), r in sorted(budget.correlations.items()) if r and a in used and b in used]
+    if not shown:
+        return
+    console.print("[bold]Correlations[/bold]")
+    for a, b, r in shown:
+        origin = budget.correlation_origins.get((a, b), "")
+        console.print(escape(f"  r({a}, {b}) = {r:.4f}" + (f"  ({origin})" if origin else "")))
+
+
 def render_caution(console: Console) -> None:
     console.print(f"[dim]{CAUTION}[/dim]")
 
@@ -122,6 +136,7 @@ def render_evaluation(console: Console, budget: Budget, gum: GumResult, mc: Mont
     if show_gum:
         render_gum(console, budget, gum)
         render_working(console, budget)
+        render_correlations(console, budget)
     if mc is not None:
         render_monte_carlo(console, budget, mc)
     render_caution(console)
