@@ -12,8 +12,8 @@ from typer.testing import CliRunner
 
 from ucalc.budget.load import load_budget_text
 from ucalc.cli import app
-from ucalc.conformity import decide, probability_of_conformance
 from ucalc.engines.gum import propagate
+from ucalc.samples.decisions import decide, probability_of_conformance
 from ucalc.workflow import load_with_settings
 
 from .conftest import BUDGETS

@@ -234,8 +234,8 @@ def batch_command(
     force: Annotated[bool, typer.Option("--force", help="replace an existing output file")] = False,
 ) -> None:
     """Attach U, a result statement and (with a limit) a decision to every sample of a table."""
-    from .batch import BatchOptions, batch, parse_maps
     from .errors import UcalcError
+    from .samples.table import BatchOptions, batch, parse_maps
 
     try:
         if limit is not None and limit_column is not None:

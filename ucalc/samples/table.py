@@ -15,9 +15,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from .budget.definitions import Budget
-from .conformity import RULE_TEXT, Rule, Side, decide, probability_of_conformance
-from .errors import BudgetError, BudgetErrors, Location, UcalcError
+from ..budget.definitions import Budget
+from ..errors import BudgetError, BudgetErrors, Location, UcalcError
+from .decisions import RULE_TEXT, Rule, Side, decide, probability_of_conformance
 
 CHUNK = 20_000
 OUTPUT_COLUMNS = ("value", "unit", "u", "nu_eff", "k", "U", "U_rel", "statement")
@@ -73,7 +73,7 @@ def choose_budgets(source: Path, frame: Any, options: BatchOptions) -> dict[str,
     if column not in frame.columns:
         raise UcalcError(f"a folder of budgets needs an analyte column '{column}' in the table "
                          "(or --analyte-column NAME)")
-    from .budget.load import load_budget
+    from ..budget.load import load_budget
 
     files = _budget_files(source)
     by_name = {p.stem.lower(): p for p in files}
@@ -130,10 +130,10 @@ def run_batch(source: Path, frame: Any, options: BatchOptions,
     """The output table (input columns plus results) and a summary."""
     import numpy as np
 
-    from .budget.load import load_document
-    from .engines.batch import propagate_rows, row_input
-    from .reports.common import statement
-    from .reports.document import pretty_unit
+    from ..budget.load import load_document
+    from ..engines.batch import propagate_rows, row_input
+    from ..reports.common import statement
+    from ..reports.document import pretty_unit
 
     n = len(frame)
     out = frame.copy()
@@ -149,7 +149,7 @@ def run_batch(source: Path, frame: Any, options: BatchOptions,
                 text["error"][i] = f"no budget for analyte '{analyte}' in {source}"
             continue
         doc = load_document(path)
-        from .budget.load import build_budget
+        from ..budget.load import build_budget
 
         budget = build_budget(doc, sha_of=path)
         columns = _per_row_names(budget, doc.data.get("inputs", {}), frame, options.maps)
@@ -216,8 +216,8 @@ def batch(budget: str | Path, table: str | Path, output: str | Path, options: Ba
     """Read the table, compute every row, write the output table atomically; return the summary."""
     import dataclasses
 
-    from .outputs import OutputError
-    from .tables import read_table, table_format, write_table
+    from ..outputs import OutputError
+    from ..tables import read_table, table_format, write_table
 
     table_format(output)
     if Path(output).exists() and not force:
