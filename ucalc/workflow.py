@@ -37,40 +37,23 @@ class MonteCarloOptions:
 
 def check_budget(path: str | Path) -> Budget:
     """Load and validate a budget (raises BudgetErrors listing every problem)."""
-    from .budget.load import load_budget
+    from .api import load
 
-    return load_budget(path)
+    return load(path)
 
 
 def evaluate_budget(budget: Budget, *, method: Method = "gum", second_order: bool = False,
                     mc: MonteCarloOptions | None = None, progress: Progress | None = None) -> Evaluation:
     """Propagate a loaded budget by the GUM and, if asked, by Monte Carlo with the GUM validated against it."""
-    from .errors import ComputationError
-
-    try:
-        return _evaluate(budget, method, second_order, mc, progress)
-    except ComputationError as exc:
-        raise exc.located(budget.source) from None
-
-
-def _evaluate(budget: Budget, method: Method, second_order: bool, mc: MonteCarloOptions | None,
-              progress: Progress | None) -> Evaluation:
-    from .engines.gum import propagate
+    from .api import propagate, simulate
 
     gum = propagate(budget, second_order=second_order)
     if method == "gum":
         return Evaluation(budget, gum, None, method)
-    from .engines import montecarlo
-
     options = mc or MonteCarloOptions()
-    block = {"block_size": options.block_size} if options.block_size else {}
-    if options.adaptive:
-        result = montecarlo.simulate_adaptive(budget, digits=options.digits, seed=options.seed, progress=progress,
-                                              **block)
-    else:
-        result = montecarlo.simulate(budget, trials=options.trials, seed=options.seed, progress=progress, **block)
-    validation = montecarlo.validate(gum, result, options.digits)
-    return Evaluation(budget, gum, montecarlo.with_validation(result, validation), method)
+    result = simulate(budget, options.trials, options.seed, adaptive=options.adaptive, digits=options.digits,
+                      block_size=options.block_size, progress=progress, gum=gum)
+    return Evaluation(budget, gum, result, method)
 
 
 def evaluate(path: str | Path, *, method: Method = "gum", second_order: bool = False,

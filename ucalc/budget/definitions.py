@@ -9,11 +9,15 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
-from typing import Any, Literal
+from typing import TYPE_CHECKING, Any, Literal
 
 from .. import expr
 from ..distributions import Distribution
 from ..errors import Location
+
+if TYPE_CHECKING:
+    from ..engines.gum import GumResult
+    from ..engines.montecarlo import MonteCarloResult
 
 
 @dataclass(frozen=True)
@@ -198,6 +202,29 @@ class Budget:
     settings: tuple[str, ...] = ()  # --set changes applied in memory: the budget differs from its file
     correlation_origins: dict[tuple[str, str], str] = field(default_factory=dict)  # why each r exists
     details: dict[str, dict[str, Any]] = field(default_factory=dict)  # input models' numbers, by input
+    raw_inputs: dict[str, dict[str, Any]] = field(default_factory=dict, repr=False, compare=False)
+
+    @classmethod
+    def from_dict(cls, data: Mapping[str, Any], source: str = "<dict>") -> Budget:
+        """Validate and build a budget given as Python data with the keys of a budget file
+        (docs/budget-format.md); raise :class:`~ucalc.errors.BudgetErrors` listing every problem."""
+        from ..api import from_dict
+
+        return from_dict(data, source)
+
+    def propagate(self, *, second_order: bool = False) -> GumResult:
+        """The GUM result: law of propagation of uncertainty (JCGM 100 clause 5) and expanded uncertainty
+        (clause 6, annex G)."""
+        from ..api import propagate
+
+        return propagate(self, second_order=second_order)
+
+    def simulate(self, trials: int = 1_000_000, seed: int | None = None, *, adaptive: bool = False,
+                 digits: int = 2) -> MonteCarloResult:
+        """The Monte Carlo result (JCGM 101), validated against the GUM result (JCGM 101 clause 8)."""
+        from ..api import simulate
+
+        return simulate(self, trials, seed, adaptive=adaptive, digits=digits)
 
     def estimates(self) -> dict[str, float]:
         return {name: q.value for name, q in self.quantities.items()}

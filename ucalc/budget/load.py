@@ -48,6 +48,22 @@ def load_budget_text(text: str, file: str = "<budget>") -> Budget:
     return build_budget(doc)
 
 
+def load_data(data: Any, file: str = "<dict>") -> Budget:
+    """Like :func:`load_budget` for a budget given as Python data (mappings, lists, text and numbers).
+
+    Problems name the quantity but no line. The SHA-256 is that of the data as canonical JSON.
+    """
+    import json
+
+    try:
+        text = json.dumps(data, sort_keys=True, ensure_ascii=False)
+    except (TypeError, ValueError) as exc:
+        raise BudgetErrors([BudgetError(f"budget data must be mappings, lists, text and numbers ({exc})",
+                                        location=Location(file))]) from None
+    doc = Document(file, json.loads(text), "")  # a deep copy holding only plain types
+    return _replace(_build(doc), sha256=hashlib.sha256(text.encode("utf-8")).hexdigest())
+
+
 def _replace(budget: Budget, **changes: Any) -> Budget:
     import dataclasses
 
@@ -221,6 +237,7 @@ def _build(doc: Document) -> Budget:
         working=built.working,
         correlation_origins=origins,
         details=built.details,
+        raw_inputs=built.raw,
     )
 
 
@@ -266,6 +283,7 @@ class _Inputs:
     working: dict[str, tuple[str, tuple[str, ...]]] = field(default_factory=dict)
     origins: dict[tuple[str, str], str] = field(default_factory=dict)
     details: dict[str, dict[str, Any]] = field(default_factory=dict)
+    raw: dict[str, dict[str, Any]] = field(default_factory=dict)
 
 
 def _same_quantity(a: Quantity, b: Quantity) -> bool:
@@ -295,6 +313,7 @@ def _build_input(name: str, raw: Any, doc: Document, errors: list[BudgetError], 
         errors.append(BudgetError("must be a mapping (value, unit, components, ...)",
                                   location=doc.locate(path), subject=subject))
         return
+    out.raw[name] = raw
     module = get_model(model_key(raw))
     try:
         spec = module.Spec.model_validate(raw)
@@ -341,7 +360,9 @@ def _build_input(name: str, raw: Any, doc: Document, errors: list[BudgetError], 
 
 
 def _model_positions(doc: Document, text: str) -> list[tuple[int, int]]:
-    """File (line, column) where each line of the model text starts."""
+    """File (line, column) where each line of the model text starts ((0, 0) for data without a file)."""
+    if not doc.text:
+        return [(0, 0)] * len(text.split("\n"))
     loc = doc.locate(("model",))
     source = doc.text.splitlines()
     lines = text.split("\n")

@@ -44,7 +44,7 @@ class Document:
                     line, col = t[probe]
                     return Location(self.file, line, col)
             probe = probe[:-1]
-        return Location(self.file, 1, 1)
+        return Location(self.file, 1, 1) if self.text else Location(self.file)  # no text: data given in memory
 
 
 def read_text(path: str | Path, *, what: str = "budget") -> str:

@@ -13,6 +13,7 @@ from typing import Any
 
 from ..budget.definitions import Budget
 from ..errors import ComputationError
+from ..results import ResultMethods
 
 
 @dataclass(frozen=True)
@@ -32,7 +33,7 @@ class Contribution:
 
 
 @dataclass(frozen=True)
-class GumResult:
+class GumResult(ResultMethods):
     """Result of the GUM propagation; ``contributions`` are sorted by decreasing contribution."""
 
     measurand: str

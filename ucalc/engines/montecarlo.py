@@ -16,6 +16,7 @@ from typing import TYPE_CHECKING, Any
 
 from ..budget.definitions import Budget
 from ..errors import ComputationError
+from ..results import ResultMethods
 
 if TYPE_CHECKING:
     import numpy as np
@@ -54,7 +55,7 @@ class Histogram:
 
 
 @dataclass(frozen=True)
-class MonteCarloResult:
+class MonteCarloResult(ResultMethods):
     """Summary of the output distribution (JCGM 101 7.6, 7.7); intervals at ``coverage_probability``."""
 
     measurand: str

@@ -62,10 +62,11 @@ def _budget_files(folder: Path) -> list[Path]:
     return sorted(p for p in folder.iterdir() if p.suffix.lower() in (".yaml", ".yml") and p.is_file())
 
 
-def choose_budgets(source: Path, frame: Any, options: BatchOptions) -> dict[str, tuple[Path | None, Any]]:
-    """Group rows by budget. A file serves every row; for a folder the analyte column picks, per row, the
-    budget whose file name (without extension) or measurand symbol equals the analyte, ignoring case."""
-    if source.is_file():
+def choose_budgets(source: Path | Budget, frame: Any,
+                   options: BatchOptions) -> dict[str, tuple[Path | Budget | None, Any]]:
+    """Group rows by budget. A budget or a file serves every row; for a folder the analyte column picks, per row,
+    the budget whose file name (without extension) or measurand symbol equals the analyte, ignoring case."""
+    if isinstance(source, Budget) or source.is_file():
         return {"": (source, frame.index)}
     if not source.is_dir():
         raise BudgetError("budget path is neither a file nor a folder", location=Location(str(source)))
@@ -77,7 +78,7 @@ def choose_budgets(source: Path, frame: Any, options: BatchOptions) -> dict[str,
 
     files = _budget_files(source)
     by_name = {p.stem.lower(): p for p in files}
-    groups: dict[str, tuple[Path | None, Any]] = {}
+    groups: dict[str, tuple[Path | Budget | None, Any]] = {}
     symbols: dict[str, Path] | None = None
     for analyte, index in frame.groupby(frame[column].str.strip(), sort=False).groups.items():
         path = by_name.get(str(analyte).lower())
@@ -97,7 +98,10 @@ def choose_budgets(source: Path, frame: Any, options: BatchOptions) -> dict[str,
 def _numbers(frame: Any, column: str) -> Any:
     import pandas as pd
 
-    return pd.to_numeric(frame[column].str.strip(), errors="coerce").to_numpy(dtype=float)
+    values = frame[column]
+    if values.dtype == object or pd.api.types.is_string_dtype(values):  # tables are read as text
+        values = values.astype(str).str.strip()
+    return pd.to_numeric(values, errors="coerce").to_numpy(dtype=float)
 
 
 def _per_row(frame: Any, option: str, column: str | None, value: float | None) -> Any:
@@ -125,12 +129,13 @@ def _per_row_names(budget: Budget, raw_inputs: dict[str, Any], frame: Any, maps:
     return {n: c for n, c in out.items() if n in budget.model.inputs}
 
 
-def run_batch(source: Path, frame: Any, options: BatchOptions,
+def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
               progress: Callable[[int, int], None] | None = None) -> tuple[Any, BatchSummary]:
-    """The output table (input columns plus results) and a summary."""
+    """The output table (input columns plus results) and a summary; ``source`` is a budget, a budget file or a
+    folder of budgets."""
     import numpy as np
 
-    from ..budget.load import load_document
+    from ..budget.load import load_budget
     from ..engines.batch import propagate_rows, row_input
     from ..reports.common import statement
     from ..reports.document import pretty_unit
@@ -148,16 +153,13 @@ def run_batch(source: Path, frame: Any, options: BatchOptions,
             for i in positions:
                 text["error"][i] = f"no budget for analyte '{analyte}' in {source}"
             continue
-        doc = load_document(path)
-        from ..budget.load import build_budget
-
-        budget = build_budget(doc, sha_of=path)
-        columns = _per_row_names(budget, doc.data.get("inputs", {}), frame, options.maps)
+        budget = path if isinstance(path, Budget) else load_budget(path)
+        columns = _per_row_names(budget, budget.raw_inputs, frame, options.maps)
         unit = pretty_unit(budget.measurand.unit)
         for start in range(0, len(positions), CHUNK):
             rows = positions[start:start + CHUNK]
             sub = frame.iloc[rows]
-            inputs = [row_input(budget, name, doc.data["inputs"].get(name), _numbers(sub, col))
+            inputs = [row_input(budget, name, budget.raw_inputs.get(name), _numbers(sub, col))
                       for name, col in columns.items()]
             res = propagate_rows(budget, inputs, len(rows))
             results["value"][rows] = res.value
