@@ -118,7 +118,12 @@ def run(
     if format is Format.json:
         from .reports.jsonout import dumps, evaluation_json
 
-        typer.echo(dumps(evaluation_json(result.budget, result.gum, result.mc)))
+        data = evaluation_json(result.budget, result.gum, result.mc)
+        if result.budget.limits is not None:
+            from .reports.qc import to_json
+
+            data["detection_limits"] = to_json(result.budget.limits)
+        typer.echo(dumps(data))
         return
     if format is Format.csv:
         from .reports.csvout import budget_table
@@ -132,7 +137,12 @@ def run(
         return
     from .reports.text import render_evaluation
 
-    render_evaluation(_console(), result.budget, result.gum, result.mc, show_gum=method is not Method.mc)
+    console = _console()
+    render_evaluation(console, result.budget, result.gum, result.mc, show_gum=method is not Method.mc)
+    if result.budget.limits is not None:
+        from .reports.qc import render_limits
+
+        render_limits(console, result.budget.limits, result.budget.measurand.unit)
 
 
 @app.command("report")

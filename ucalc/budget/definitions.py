@@ -18,6 +18,7 @@ from ..errors import Location
 if TYPE_CHECKING:
     from ..engines.gum import GumResult
     from ..engines.montecarlo import MonteCarloResult
+    from ..qc.limits import DetectionLimits
 
 
 @dataclass(frozen=True)
@@ -225,6 +226,7 @@ class Budget:
         from ..api import simulate
 
         return simulate(self, trials, seed, adaptive=adaptive, digits=digits)
+    limits: DetectionLimits | None = None  # LOD/LOQ declared or estimated in the budget's 'limits' block
 
     def estimates(self) -> dict[str, float]:
         return {name: q.value for name, q in self.quantities.items()}

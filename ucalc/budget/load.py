@@ -214,6 +214,7 @@ def _build(doc: Document) -> Budget:
 
     if model is not None and not errors:
         _check_at_estimate(model, quantities, doc, errors)
+    limits = _build_limits(top.get("limits"), raw_inputs, doc, errors)
 
     if errors or spec is None or model is None or not isinstance(measurand, MeasurandSpec):
         if not errors:  # pragma: no cover - every failed part records an error
@@ -238,6 +239,7 @@ def _build(doc: Document) -> Budget:
         correlation_origins=origins,
         details=built.details,
         raw_inputs=built.raw,
+        limits=limits,
     )
 
 
@@ -357,6 +359,46 @@ def _build_input(name: str, raw: Any, doc: Document, errors: list[BudgetError], 
         out.lines.append((name, derived.expression, doc.locate(path, key=True)))
         out.working[name] = (getattr(module, "__name__", "").rsplit(".", 1)[-1], derived.working)
     out.warnings += tuple(f"input '{name}': {w}" for w in derived.warnings)
+
+
+def _build_limits(raw: Any, raw_inputs: Any, doc: Document, errors: list[BudgetError]) -> Any:
+    """The budget's detection limits (ucalc.qc.limits), or None; problems are added to ``errors``."""
+    if raw is None:
+        return None
+    from ..qc.limits import LimitsSpec, build
+
+    try:
+        spec = LimitsSpec.model_validate(raw)
+    except ValidationError as exc:
+        errors.extend(validation_errors(exc, LimitsSpec, doc, ("limits",), "limits"))
+        return None
+    fit = None
+    if spec.calibration is not None:
+        from ..inputs import calibration
+
+        block = raw_inputs.get(spec.calibration) if isinstance(raw_inputs, dict) else None
+        if not isinstance(block, dict) or "calibration" not in block:
+            errors.append(BudgetError(f"'{spec.calibration}' is not a calibration input of this budget",
+                                      location=doc.locate(("limits", "calibration")), subject="limits"))
+            return None
+        try:
+            cal = calibration.Spec.model_validate(block).calibration
+        except ValidationError:
+            return None  # reported with the input
+        if cal.weighting != "none" or cal.through_origin or cal.method != "external":
+            errors.append(BudgetError("limits from a calibration line need an unweighted external calibration "
+                                      "with an intercept (ISO 11843-2 5.3)",
+                                      location=doc.locate(("limits", "calibration")), subject="limits"))
+            return None
+        try:
+            fit = calibration.fit(cal)
+        except (ValueError, ArithmeticError):
+            return None  # reported with the input
+    try:
+        return build(spec, fit)
+    except (ValueError, ArithmeticError) as exc:
+        errors.append(BudgetError(str(exc), location=doc.locate(("limits",), key=True), subject="limits"))
+        return None
 
 
 def _model_positions(doc: Document, text: str) -> list[tuple[int, int]]:

@@ -61,6 +61,7 @@ class BudgetSpec(_Strict):
     inputs: dict[str, dict[str, Any]] = Field(min_length=1)
     correlations: list[CorrelationSpec] = Field(default_factory=list)
     items: dict[str, dict[str, Any]] = Field(default_factory=dict)  # shared items, see ucalc.inputs.shared
+    limits: dict[str, Any] | None = None  # validated by ucalc.qc.limits.LimitsSpec
     description: str | None = None
 
     @field_validator("ucalc")

@@ -12,6 +12,7 @@ if TYPE_CHECKING:
     from rich.console import Console
 
     from ..qc.compare import Comparison
+    from ..qc.limits import DetectionLimits
     from ..qc.proficiency import Proficiency
 
 
@@ -135,3 +136,31 @@ def render_comparison(console: Console, result: Comparison) -> None:
                              f"{dof_text(c.dof_qc)} and {dof_text(c.dof_budget)}; {c.qc_source})"))
     for note in result.notes:
         console.print(escape(f"note: {note}"))
+
+
+# ---- detection limits ------------------------------------------------------------------------------------
+
+
+def limits_lines(limits: DetectionLimits, unit: str) -> list[str]:
+    """Plain lines stating the limits and how they were found."""
+    import math
+
+    u = f" {unit}" if unit else ""
+    parts = []
+    if limits.critical is not None:
+        parts.append(f"critical value {num(limits.critical, 3)}{u}")
+    if math.isfinite(limits.lod):
+        parts.append(f"LOD {num(limits.lod, 3)}{u}")
+    if math.isfinite(limits.loq):
+        parts.append(f"LOQ {num(limits.loq, 3)}{u}")
+    head = f"Detection limits ({limits.method}, from {limits.source}): " + ", ".join(parts)
+    return [head, *(f"  {w}" for w in limits.working)]
+
+
+def render_limits(console: Console, limits: DetectionLimits, unit: str) -> None:
+    from rich.markup import escape
+
+    from .document import pretty_unit
+
+    for line in limits_lines(limits, pretty_unit(unit)):
+        console.print(escape(line))

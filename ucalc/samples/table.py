@@ -129,6 +129,15 @@ def _per_row_names(budget: Budget, raw_inputs: dict[str, Any], frame: Any, maps:
     return {n: c for n, c in out.items() if n in budget.model.inputs}
 
 
+def _budget_limits(budget: Budget, options: BatchOptions, positions: Any, loq: Any) -> dict[int, float]:
+    """LOD per row of this budget's rows, and its LOQ written into ``loq`` unless --loq/--loq-column gave one."""
+    if budget.limits is None:
+        return {}
+    if options.loq is None and not options.loq_column and math.isfinite(budget.limits.loq):
+        loq[positions] = budget.limits.loq
+    return {int(i): budget.limits.lod for i in positions}
+
+
 def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
               progress: Callable[[int, int], None] | None = None) -> tuple[Any, BatchSummary]:
     """The output table (input columns plus results) and a summary; ``source`` is a budget, a budget file or a
@@ -155,6 +164,7 @@ def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
             continue
         budget = path if isinstance(path, Budget) else load_budget(path)
         columns = _per_row_names(budget, budget.raw_inputs, frame, options.maps)
+        lod = _budget_limits(budget, options, positions, loq)
         unit = pretty_unit(budget.measurand.unit)
         for start in range(0, len(positions), CHUNK):
             rows = positions[start:start + CHUNK]
@@ -175,7 +185,10 @@ def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
                     text["error"][i] = res.errors[j]
                     continue
                 y, U = float(res.value[j]), float(res.expanded_uncertainty[j])
-                if math.isfinite(loq[i]) and y < loq[i]:
+                if math.isfinite(lod.get(i, math.nan)) and y < lod[i]:
+                    text["statement"][i] = (f"{budget.measurand.symbol} < {lod[i]:g}{' ' + unit if unit else ''} "
+                                            "(not detected: below the limit of detection)")
+                elif math.isfinite(loq[i]) and y < loq[i]:
                     text["statement"][i] = (f"{budget.measurand.symbol} < {loq[i]:g}{' ' + unit if unit else ''} "
                                             "(below the limit of quantification)")
                 else:
