@@ -385,8 +385,8 @@ def _build_limits(raw: Any, raw_inputs: Any, doc: Document, errors: list[BudgetE
             cal = calibration.Spec.model_validate(block).calibration
         except ValidationError:
             return None  # reported with the input
-        if cal.weighting != "none" or cal.through_origin or cal.method != "external":
-            errors.append(BudgetError("limits from a calibration line need an unweighted external calibration "
+        if cal.weighting != "none" or cal.through_origin or cal.method != "external" or cal.function != "linear":
+            errors.append(BudgetError("limits from a calibration line need an unweighted external straight line "
                                       "with an intercept (ISO 11843-2 5.3)",
                                       location=doc.locate(("limits", "calibration")), subject="limits"))
             return None

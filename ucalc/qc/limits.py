@@ -145,14 +145,14 @@ class LimitsSpec(BaseModel):
         return self
 
 
-def build(spec: LimitsSpec, calibration_fit: dict[str, Any] | None = None) -> DetectionLimits:
+def build(spec: LimitsSpec, calibration_fit: Any = None) -> DetectionLimits:
     """The limits a budget's block asks for; ``calibration_fit`` is the named calibration input's own fit."""
     if spec.blanks is not None:
         return from_blanks(spec.blanks, spec.method or "common", spec.replicates, spec.blank_corrected, spec.alpha,
                            spec.beta, spec.factor)
     if spec.calibration is not None:
         assert calibration_fit is not None
-        f = calibration_fit
-        return from_line(f["a"], f["b"], math.sqrt(f["s2"]), list(f["x"]), f["dof"], spec.replicates, spec.alpha,
-                         spec.beta, spec.factor)
+        f = calibration_fit  # ucalc.inputs.calibration_fit.Fit of a straight line with an intercept
+        return from_line(float(f.coef[0]), float(f.coef[1]), math.sqrt(f.s2), [float(v) for v in f.x], f.dof,
+                         spec.replicates, spec.alpha, spec.beta, spec.factor)
     return declared(spec.lod, spec.loq)
