@@ -182,9 +182,10 @@ def _build(doc: Document) -> Budget:
 
     raw_items = top.get("items")
     uses = None
-    if isinstance(raw_items, dict) and isinstance(raw_inputs, dict):
+    if isinstance(raw_inputs, dict):
         from ..inputs import shared
 
+        raw_items = raw_items if isinstance(raw_items, dict) else {}
         raw_inputs, uses = shared.resolve(raw_items, raw_inputs)
         for path, item in uses.unknown:
             errors.append(BudgetError(f"unknown item '{item}'; items declared: {', '.join(raw_items) or 'none'}",
