@@ -124,7 +124,10 @@ def apply_settings(data: dict[str, Any], settings: list[str]) -> dict[str, Any]:
 
 
 def actions_for(raw: dict[str, Any]) -> list[Action]:
-    """Concrete improvement actions an input model knows for one input (may be none)."""
+    """Concrete improvement actions an input model knows for one input (may be none; none for a shared item's
+    use, which changes with the item)."""
+    if "use" in raw:
+        return []
     module = _module(raw)
     hook = getattr(module, "actions", None)
     return list(hook(copy.deepcopy(raw))) if hook else []
