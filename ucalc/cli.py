@@ -304,6 +304,47 @@ def compare_command(
     qc.render_comparison(_console(), result)
 
 
+@app.command("working-range")
+def working_range_command(
+    data: Annotated[Path, typer.Argument(help="QC or validation data, .csv or .xlsx, at several levels",
+                                         show_default=False)],
+    column: Annotated[str, typer.Option("--column", help="column of results")],
+    level_column: Annotated[str, typer.Option("--level-column", help="column naming each result's level")],
+    run_column: Annotated[str | None, typer.Option("--run-column", help="column naming each result's run")] = None,
+    unit: Annotated[str, typer.Option("--unit", help="unit of the results, for labels")] = "",
+    format: Annotated[Format, typer.Option("--format", "-f", help="text or json")] = Format.text,
+    chart: Annotated[Path | None, typer.Option("--chart", help="also write the fit as an SVG chart")] = None,
+    force: Annotated[bool, typer.Option("--force", help="replace an existing chart file")] = False,
+) -> None:
+    """Fit u(c) = sqrt(u0^2 + (b c)^2) to the precision at each level of QC or validation data."""
+    from .errors import UcalcError
+    from .qc.range_fit import fit, levels_from_data
+    from .reports import qc
+
+    try:
+        if format not in (Format.text, Format.json):
+            raise UcalcError("--format for working-range is text or json")
+        try:
+            result = fit(levels_from_data(str(data), column, level_column, run_column))
+        except ValueError as exc:
+            if isinstance(exc, UcalcError):
+                raise
+            raise UcalcError(f"{data}: {exc}") from None
+        if chart is not None:
+            from .outputs import write_atomic
+
+            write_atomic(chart, qc.range_chart(result, unit), force=force, inputs=[data])
+    except UcalcError as exc:
+        _fail(exc)
+        return
+    if format is Format.json:
+        from .reports.jsonout import dumps
+
+        typer.echo(dumps(qc.to_json(result)))
+        return
+    qc.render_range(_console(), result, unit)
+
+
 @app.command("proficiency")
 def proficiency_command(
     table: Annotated[Path, typer.Argument(help="rounds table, .csv or .xlsx: round, assigned, u_assigned, result, U "

@@ -81,6 +81,7 @@ REGISTRY: dict[str, str] = {
     "molar_mass": "molar_mass",
     "reproducibility": "reproducibility",
     "bias": "bias",
+    "working_range": "working_range",
 }
 
 

@@ -14,6 +14,7 @@ if TYPE_CHECKING:
     from ..qc.compare import Comparison
     from ..qc.limits import DetectionLimits
     from ..qc.proficiency import Proficiency
+    from ..qc.range_fit import RangeFit
 
 
 def _plain(obj: Any) -> Any:
@@ -164,3 +165,52 @@ def render_limits(console: Console, limits: DetectionLimits, unit: str) -> None:
 
     for line in limits_lines(limits, pretty_unit(unit)):
         console.print(escape(line))
+
+
+# ---- working range ---------------------------------------------------------------------------------------
+
+
+def render_range(console: Console, result: RangeFit, unit: str = "") -> None:
+    from rich.markup import escape
+    from rich.table import Table
+
+    from .common import dof_text
+
+    u = f" {unit}" if unit else ""
+    table = Table(header_style="bold", title="Precision across the working range", title_justify="left")
+    for col in ("level", f"c{u}", "n", f"s{u}", "dof", f"fitted u(c){u}", "s/c %", "s/fit"):
+        table.add_column(escape(col), justify="left" if col == "level" else "right")
+    for lv, f in zip(result.levels, result.fitted, strict=True):
+        table.add_row(escape(lv.label), num(lv.level, 4), str(lv.n or ""), num(lv.s, 3), dof_text(lv.dof),
+                      num(f, 3), f"{100 * lv.s / abs(lv.level):.2f}" if lv.level else "", f"{lv.s / f:.2f}")
+    console.print(table)
+    console.print(escape(f"u(c) = sqrt(u0^2 + (b c)^2) with u0 = {num(result.u0, 3)}{u} (standard uncertainty "
+                         f"{num(result.u_u0, 2)}), b = {num(result.b, 3)} (standard uncertainty "
+                         f"{num(result.u_b, 2)})"))
+    if result.b > 0:
+        console.print(escape(f"the floor and the relative part are equal at c = u0/b = "
+                             f"{num(result.u0 / result.b, 3)}{u}"))
+
+
+def range_chart(result: RangeFit, unit: str = "") -> str:
+    """s at each level with its standard uncertainty s/sqrt(2 nu), and the fitted u(c); SVG text."""
+    import numpy as np
+
+    from .charts import _figure, _svg
+
+    plt, fig, ax = _figure(2.8)
+    c = np.array([lv.level for lv in result.levels])
+    s = np.array([lv.s for lv in result.levels])
+    err = s / np.sqrt(2 * np.array([min(lv.dof, 1e6) for lv in result.levels]))
+    ax.errorbar(c, s, yerr=err, fmt="o", color="black", capsize=3, markersize=4, label="s at each level (± u(s))")
+    xs = np.linspace(0, c.max() * 1.05, 200)
+    ax.plot(xs, np.hypot(result.u0, result.b * xs), color="black", linewidth=1.2, label="fit sqrt(u0² + (b c)²)")
+    ax.plot(xs, np.full_like(xs, result.u0), color="#666666", linestyle="dotted", linewidth=1.0, label="u0")
+    ax.plot(xs, result.b * xs, color="#666666", linestyle="dashed", linewidth=1.0, label="b c")
+    label = f" / {unit}" if unit else ""
+    ax.set_xlabel(f"level c{label}")
+    ax.set_ylabel(f"standard uncertainty{label}")
+    ax.set_ylim(bottom=0)
+    ax.legend(fontsize=7, frameon=False, loc="upper left")
+    ax.set_title("Uncertainty across the working range", fontsize=10, loc="left")
+    return _svg(plt, fig)
