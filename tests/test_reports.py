@@ -13,6 +13,7 @@ from typer.testing import CliRunner
 
 from ucalc.cli import app
 from ucalc.reports.common import statement
+from ucalc.statement import interval_texts
 
 from .conftest import BUDGETS
 
@@ -52,10 +53,17 @@ def test_html_report_is_self_contained_and_complete(tmp_path) -> None:
                     "Monte Carlo check", "Caution."):
         assert section in html
     assert html.count("<svg") == 2
-    data = json.loads(runner.invoke(app, ["run", str(STOCK), "-f", "json"]).stdout)
-    expected = statement("c_std", data["value"], "mg/L", data["expanded_uncertainty"], data["coverage_factor"],
-                         data["coverage_probability"])
-    assert expected in html
+    # the report states the same result as the JSON 'result' block of the same run (one result statement)
+    data = json.loads(runner.invoke(app, ["run", str(STOCK), "-m", "both", "--seed", "7", "-n", "20000",
+                                          "-f", "json"]).stdout)
+    stated = data["result"]
+    if stated["method"] == "gum":
+        expected = statement("c_std", stated["value"], "mg/L", stated["expanded_uncertainty"],
+                             stated["coverage_factor"], stated["coverage_probability"])
+    else:
+        _, low, high = interval_texts(stated["value"], tuple(stated["interval"]))
+        expected = f"coverage interval [{low}, {high}] mg/L by Monte Carlo"
+    assert expected in html and stated["reason"].split("(")[0] in html
     assert "fill repeatability" in html and "divisor" in html
 
 
@@ -65,7 +73,10 @@ def test_markdown_twin(tmp_path) -> None:
     md = out.read_text(encoding="utf-8")
     assert md.startswith("# Stock standard")
     assert "| V |" in md and "## Monte Carlo check" in md and "SHA-256" in md
-    assert "c_std = (1002.7 ± 1.6) mg/L" in md
+    # one result statement: the GUM y ± U or, when the GUM is not validated, the Monte Carlo interval (the same
+    # figures here, 1002.7 ± 1.6 mg/L)
+    assert ("c_std = (1002.7 ± 1.6) mg/L" in md) != (
+        "c_std = 1002.7 mg/L, probabilistically symmetric 95 % coverage interval [1001.1, 1004.3] mg/L" in md)
 
 
 def test_report_never_overwrites_without_force_nor_the_budget(tmp_path) -> None:

@@ -62,7 +62,7 @@ def simulate(budget: Budget, trials: int = 1_000_000, seed: int | None = None, *
             result = montecarlo.simulate(budget, trials=trials, seed=seed, progress=progress, **block)
     except ComputationError as exc:
         raise exc.located(budget.source) from None
-    return montecarlo.with_validation(result, montecarlo.validate(reference, result, digits))
+    return montecarlo.with_validation(result, montecarlo.validate(reference, result, digits, budget))
 
 
 def batch(budget: Budget, frame: Any, *, maps: dict[str, str] | None = None, limit: float | None = None,

@@ -44,6 +44,11 @@ class Distribution:
         return self.scale
 
     @property
+    def variance_defined(self) -> bool:
+        """False for a t with 2 or fewer degrees of freedom, whose variance does not exist (JCGM 101 6.4.9)."""
+        return not (self.shape == "t" and self.dof <= 2)
+
+    @property
     def divisor(self) -> float:
         return DIVISORS.get(self.shape, 1.0)
 

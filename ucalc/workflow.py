@@ -48,6 +48,8 @@ def evaluate_budget(budget: Budget, *, method: Method = "gum", second_order: boo
     from .api import propagate, simulate
 
     gum = propagate(budget, second_order=second_order)
+    if method == "gum" and budget.reporting is not None and budget.reporting.method == "monte-carlo":
+        method = "both"  # the budget states its result by Monte Carlo
     if method == "gum":
         return Evaluation(budget, gum, None, method)
     options = mc or MonteCarloOptions()

@@ -187,6 +187,14 @@ class Coverage:
 
 
 @dataclass(frozen=True)
+class Reporting:
+    """The reporting method a budget fixes, and why (stated beside the result)."""
+
+    method: Literal["gum", "monte-carlo"]
+    reason: str
+
+
+@dataclass(frozen=True)
 class Budget:
     """A validated budget, ready for the engines."""
 
@@ -227,6 +235,7 @@ class Budget:
 
         return simulate(self, trials, seed, adaptive=adaptive, digits=digits)
     limits: DetectionLimits | None = None  # LOD/LOQ declared or estimated in the budget's 'limits' block
+    reporting: Reporting | None = None
 
     def estimates(self) -> dict[str, float]:
         return {name: q.value for name, q in self.quantities.items()}

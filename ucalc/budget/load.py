@@ -19,7 +19,7 @@ from pydantic import BaseModel, ValidationError
 
 from .. import expr, units
 from ..errors import BudgetError, BudgetErrors, ExpressionError, Location
-from .definitions import Budget, Coverage, Measurand, Model, ModelLine, Quantity
+from .definitions import Budget, Coverage, Measurand, Model, ModelLine, Quantity, Reporting
 from .schema import BudgetSpec, CorrelationSpec, CoverageSpec, MeasurandSpec
 from .yamlio import Document, PathKey, load_yaml, parse_yaml
 
@@ -241,6 +241,7 @@ def _build(doc: Document) -> Budget:
         details=built.details,
         raw_inputs=built.raw,
         limits=limits,
+        reporting=Reporting(spec.reporting.method, spec.reporting.reason) if spec.reporting else None,
     )
 
 

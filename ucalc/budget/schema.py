@@ -52,6 +52,11 @@ class CorrelationSpec(_Strict):
     r: float = Field(ge=-1, le=1)
 
 
+class ReportingSpec(_Strict):
+    method: Literal["gum", "monte-carlo"]
+    reason: str = Field(min_length=1, max_length=500)
+
+
 class BudgetSpec(_Strict):
     ucalc: int
     title: str = Field(min_length=1)
@@ -63,6 +68,7 @@ class BudgetSpec(_Strict):
     items: dict[str, dict[str, Any]] = Field(default_factory=dict)  # shared items, see ucalc.inputs.shared
     limits: dict[str, Any] | None = None  # validated by ucalc.qc.limits.LimitsSpec
     description: str | None = None
+    reporting: ReportingSpec | None = None
 
     @field_validator("ucalc")
     @classmethod

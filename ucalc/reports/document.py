@@ -7,13 +7,12 @@ its components and working, the budget table, the result statement, the Monte Ca
 from __future__ import annotations
 
 import datetime as _dt
-import math
 from typing import TYPE_CHECKING, Any
 
 from .. import __version__, units
 from ..budget.definitions import Budget
 from ..engines.gum import GumResult
-from .common import CAUTION, dof_text, num, probability_text, statement
+from .common import CAUTION, dof_text, num, probability_text
 
 if TYPE_CHECKING:
     from ..engines.montecarlo import MonteCarloResult
@@ -49,9 +48,12 @@ def build(budget: Budget, gum: GumResult, mc: MonteCarloResult | None = None, *,
              "u": num(r.standard_uncertainty, 3), "type": r.kind, "distribution": r.shape, "dof": dof_text(r.dof),
              "c": num(r.sensitivity, 4), "contribution": num(r.contribution, 3), "index": f"{100 * r.index:.1f}"}
             for r in gum.contributions]
+    from ..statement import sentence, state
+
+    stated = state(budget, gum, mc)
     result = {
-        "statement": statement(gum.measurand, gum.value, mu, gum.expanded_uncertainty, gum.coverage_factor,
-                               gum.coverage_probability, digits),
+        "statement": sentence(stated, mu, digits), "method": stated.method_name, "reason": stated.reason,
+        "by_monte_carlo": stated.method == "monte-carlo",
         "value": num(gum.value, 10), "u": num(gum.standard_uncertainty, 4), "dof": dof_text(gum.effective_dof),
         "k": f"{gum.coverage_factor:.3f}", "U": num(gum.expanded_uncertainty, 4),
         "p": probability_text(gum.coverage_probability) if gum.coverage_probability else "fixed k",
@@ -69,13 +71,25 @@ def build(budget: Budget, gum: GumResult, mc: MonteCarloResult | None = None, *,
         v = mc.validation
         data["mc"] = {
             "trials": f"{mc.trials:,}", "seed": str(mc.seed), "mean": num(mc.value, 10),
-            "sd": num(mc.standard_uncertainty, 4), "p": probability_text(mc.coverage_probability),
+            "sd": num(mc.standard_uncertainty, 4) if mc.standard_uncertainty is not None else "not defined",
+            "estimate": mc.estimate, "p": probability_text(mc.coverage_probability),
+            "precision": None if mc.precision is None else (
+                f"Standard errors ({mc.precision.blocks} blocks, JCGM 101 7.9): {mc.estimate} "
+                f"{num(mc.precision.value, 2)}, u "
+                + (num(mc.precision.standard_uncertainty, 2) if mc.precision.standard_uncertainty is not None
+                   else "not defined")
+                + f", endpoints {num(mc.precision.low, 2)} and {num(mc.precision.high, 2)}"),
             "interval": f"[{num(mc.interval[0], 8)}, {num(mc.interval[1], 8)}]",
             "shortest": f"[{num(mc.shortest_interval[0], 8)}, {num(mc.shortest_interval[1], 8)}]",
             "nonfinite": mc.nonfinite, "adaptive": mc.adaptive, "stages": mc.stages, "notes": list(mc.notes),
             "validation": None if v is None else {
                 "delta": num(v.delta, 2), "d_low": num(v.d_low, 2), "d_high": num(v.d_high, 2),
-                "digits": v.digits, "passed": v.passed,
+                "digits": v.digits, "passed": v.verdict == "passed", "verdict": {
+                    "passed": "the GUM result is validated.",
+                    "failed": "the GUM result is not validated at this tolerance; the Monte Carlo interval is "
+                              "stated.",
+                    "undecided": "undecided: the margin to δ is within the endpoints' scatter.",
+                }[v.verdict], "causes": list(v.causes),
                 "gum_interval": f"[{num(v.gum_interval[0], 8)}, {num(v.gum_interval[1], 8)}]"},
         }
     if charts:
@@ -83,6 +97,6 @@ def build(budget: Budget, gum: GumResult, mc: MonteCarloResult | None = None, *,
 
         if gum.contributions and any(r.contribution > 0 for r in gum.contributions):
             data["charts"]["contributions"] = drawing.contribution_chart(gum, mu)
-        if mc is not None and math.isfinite(mc.standard_uncertainty):
+        if mc is not None:
             data["charts"]["distribution"] = drawing.distribution_chart(gum, mc, mu)
     return data

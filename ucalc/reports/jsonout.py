@@ -46,15 +46,22 @@ def monte_carlo_json(mc: MonteCarloResult) -> dict[str, Any]:
         "seed": mc.seed,
         "value": mc.value,
         "standard_uncertainty": mc.standard_uncertainty,
+        "estimate": mc.estimate,
+        "heavy_tailed_inputs": list(mc.heavy_tailed),
         "coverage_probability": mc.coverage_probability,
         "interval": list(mc.interval),
         "shortest_interval": list(mc.shortest_interval),
         "nonfinite": mc.nonfinite,
         "adaptive": mc.adaptive,
         "digits": mc.digits,
+        "precision": None if mc.precision is None else {
+            "blocks": mc.precision.blocks, "trials_per_block": mc.precision.trials_per_block,
+            "value": mc.precision.value, "standard_uncertainty": mc.precision.standard_uncertainty,
+            "interval_low": mc.precision.low, "interval_high": mc.precision.high},
         "validation": None if v is None else {
             "delta": v.delta, "d_low": v.d_low, "d_high": v.d_high, "passed": v.passed, "digits": v.digits,
-            "gum_interval": list(v.gum_interval),
+            "gum_interval": list(v.gum_interval), "verdict": v.verdict, "scatter_low": v.scatter_low,
+            "scatter_high": v.scatter_high, "rerun_trials": v.rerun_trials, "causes": list(v.causes),
         },
         "histogram": {"counts": list(mc.histogram.counts), "edges": list(mc.histogram.edges),
                       "outside": mc.histogram.outside},
@@ -62,10 +69,22 @@ def monte_carlo_json(mc: MonteCarloResult) -> dict[str, Any]:
     }
 
 
+def result_json(budget: Budget, gum: GumResult, mc: MonteCarloResult | None = None) -> dict[str, Any]:
+    """The stated result (ucalc.statement): the method it comes from, its figures and the reason."""
+    from ..statement import line, state
+
+    s = state(budget, gum, mc)
+    return {"method": s.method, "value": s.value, "unit": s.unit, "coverage_probability": s.probability,
+            "expanded_uncertainty": s.expanded_uncertainty, "coverage_factor": s.coverage_factor,
+            "interval": None if s.interval is None else list(s.interval), "reason": s.reason,
+            "line": line(s, s.unit)}
+
+
 def evaluation_json(budget: Budget, gum: GumResult, mc: MonteCarloResult | None = None) -> dict[str, Any]:
     data = gum_json(budget, gum)
     if mc is not None:
         data["monte_carlo"] = monte_carlo_json(mc)
+    data["result"] = result_json(budget, gum, mc)
     return data
 
 

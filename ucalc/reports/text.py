@@ -44,26 +44,35 @@ def render_monte_carlo(console: Console, budget: Budget, mc: MonteCarloResult) -
     how = (f"adaptive, {mc.stages} stages, {mc.digits} significant digits" if mc.adaptive else "fixed trials")
     console.print(f"[bold]Monte Carlo[/bold] (JCGM 101): {mc.trials:,} trials ({how}), seed {mc.seed}")
     pct = probability_text(mc.coverage_probability)
-    console.print(f"  mean {num(mc.value, 8)}{unit}, standard deviation {num(mc.standard_uncertainty, 3)}{unit}")
+    estimate = "median" if mc.estimate == "median" else "mean"
+    sd = (f"standard deviation {num(mc.standard_uncertainty, 3)}{unit}" if mc.standard_uncertainty is not None
+          else "standard deviation not defined (an input's variance does not exist)")
+    console.print(f"  {estimate} {num(mc.value, 8)}{unit}, {sd}")
     console.print(f"  {pct} probabilistically symmetric interval [{num(mc.interval[0], 8)}, "
                   f"{num(mc.interval[1], 8)}]{unit}")
     console.print(f"  {pct} shortest interval [{num(mc.shortest_interval[0], 8)}, "
                   f"{num(mc.shortest_interval[1], 8)}]{unit}")
+    pr = mc.precision
+    if pr is not None:
+        se_u = num(pr.standard_uncertainty, 2) if pr.standard_uncertainty is not None else "not defined"
+        console.print(f"  standard errors from {pr.blocks} blocks of {pr.trials_per_block:,} trials (JCGM 101 7.9): "
+                      f"{estimate} {num(pr.value, 2)}, u {se_u}, low end {num(pr.low, 2)}, high end "
+                      f"{num(pr.high, 2)}{unit}")
     if mc.nonfinite:
         console.print(f"  non-finite trials: {mc.nonfinite} (left out)")
     v = mc.validation
     if v is not None:
-        verdict = "[green]passed[/green]" if v.passed else "[red]failed[/red]"
+        verdict = {"passed": "[green]passed[/green]", "failed": "[red]failed[/red]",
+                   "undecided": "[yellow]undecided[/yellow]"}[v.verdict]
+        scatter = (f", endpoint scatter ±{num(v.scatter_low, 2)}/±{num(v.scatter_high, 2)}{unit}"
+                   if v.scatter_low is not None and v.scatter_high is not None else "")
         console.print(f"  GUM validation (JCGM 101 8.2): delta = {num(v.delta, 2)}{unit}, d_low = "
-                      f"{num(v.d_low, 2)}{unit}, d_high = {num(v.d_high, 2)}{unit}: {verdict}")
-        if not v.passed:
-            console.print("  the GUM interval differs from the Monte Carlo one by more than delta; "
-                          "report the Monte Carlo interval")
+                      f"{num(v.d_low, 2)}{unit}, d_high = {num(v.d_high, 2)}{unit}{scatter}: {verdict}")
     for note in mc.notes:
         console.print(escape(f"  note: {note}"))
 
 
-def render_gum(console: Console, budget: Budget, result: GumResult) -> None:
+def render_gum(console: Console, budget: Budget, result: GumResult, show_result: bool = True) -> None:
     """Print the budget table and the result line to a rich console."""
     from rich.table import Table
 
@@ -84,8 +93,12 @@ def render_gum(console: Console, budget: Budget, result: GumResult) -> None:
     console.print(f"u_c = {num(result.standard_uncertainty, 3)}{' ' + mu if mu else ''}, effective dof "
                   f"{dof_text(result.effective_dof)}" + (", second-order terms included" if result.second_order
                                                          else ""))
-    console.print("[bold]" + result_line(result.measurand, result.value, mu, result.expanded_uncertainty,
-                                         result.coverage_factor, result.coverage_probability) + "[/bold]")
+    if show_result:
+        console.print("[bold]" + result_line(result.measurand, result.value, mu, result.expanded_uncertainty,
+                                             result.coverage_factor, result.coverage_probability) + "[/bold]")
+    else:
+        console.print(escape("GUM: " + result_line(result.measurand, result.value, mu, result.expanded_uncertainty,
+                                                   result.coverage_factor, result.coverage_probability)))
     for note in (*result.notes, *budget.warnings):
         console.print(escape(f"note: {note}"))
 
@@ -132,11 +145,19 @@ def render_caution(console: Console) -> None:
 def render_evaluation(console: Console, budget: Budget, gum: GumResult, mc: MonteCarloResult | None,
                       show_gum: bool = True) -> None:
     """The whole terminal report of ``ucalc run``."""
+    from ..statement import line, state
+
     render_header(console, budget)
     if show_gum:
-        render_gum(console, budget, gum)
+        render_gum(console, budget, gum, show_result=mc is None)
         render_working(console, budget)
         render_correlations(console, budget)
     if mc is not None:
         render_monte_carlo(console, budget, mc)
+    if mc is not None or budget.reporting is not None:
+        from rich.markup import escape
+
+        stated = state(budget, gum, mc)
+        console.print(f"[bold]Result[/bold] ({stated.method_name}): " + escape(stated.reason))
+        console.print("[bold]" + escape(line(stated, _unit(gum.unit))) + "[/bold]")
     render_caution(console)

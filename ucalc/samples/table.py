@@ -163,6 +163,10 @@ def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
                 text["error"][i] = f"no budget for analyte '{analyte}' in {source}"
             continue
         budget = path if isinstance(path, Budget) else load_budget(path)
+        if budget.reporting is not None and budget.reporting.method == "monte-carlo":
+            raise UcalcError(f"{budget.source}: the budget fixes Monte Carlo as its reporting method "
+                             f"({budget.reporting.reason}); batch states GUM results per row, so it cannot follow "
+                             "that budget")
         columns = _per_row_names(budget, budget.raw_inputs, frame, options.maps)
         lod = _budget_limits(budget, options, positions, loq)
         unit = pretty_unit(budget.measurand.unit)
