@@ -25,6 +25,9 @@ class ResultMethods:
         from uncertainties import ufloat
 
         fields: Any = self
+        if fields.standard_uncertainty is None:
+            raise ValueError("the standard uncertainty is not defined (an input's variance does not exist, JCGM 101 "
+                             "6.4.9), so the result has no uncertainties number")
         return ufloat(float(fields.value), float(fields.standard_uncertainty), tag=str(fields.measurand))
 
     def to_frame(self) -> Any:

@@ -56,7 +56,8 @@ def html(result: Any) -> str:
     low, high = result.interval
     short_low, short_high = result.shortest_interval
     p = probability_text(result.coverage_probability)
-    rows = [["estimate", num(result.value, 6)], ["standard uncertainty", num(result.standard_uncertainty)],
+    u = "not defined" if result.standard_uncertainty is None else num(result.standard_uncertainty)
+    rows = [["estimate", num(result.value, 6)], ["standard uncertainty", u],
             [f"probabilistically symmetric {p} interval", f"[{num(low, 6)}, {num(high, 6)}]"],
             [f"shortest {p} interval", f"[{num(short_low, 6)}, {num(short_high, 6)}]"],
             ["trials", str(result.trials)], ["seed", str(result.seed)]]
