@@ -191,3 +191,26 @@ def test_example_budget_combines_rw_and_bias() -> None:
     g = propagate(b)
     rw, bi = b.quantities["F_Rw"].standard_uncertainty, b.quantities["F_bias"].standard_uncertainty
     assert g.standard_uncertainty / g.value == pytest.approx(math.hypot(rw, bi), rel=1e-12)
+
+
+def test_improve_offers_correction_only_for_a_significant_bias() -> None:
+    block = {"relative": True, "material": {"certified": {"value": 10.0, "expanded": 0.2, "k": 2.0},
+                                            "results": [10.31, 10.18, 10.42, 10.25]}}
+    assert [label for label, _ in bias.actions({"bias": block})] == [
+        "correct the results for the bias (correct: true)"]
+    close = {**block, "material": {**block["material"], "results": [10.01, 9.98, 10.03, 9.99]}}
+    assert bias.actions({"bias": close}) == []
+
+
+def test_control_series_from_an_xlsx_column(tmp_path) -> None:
+    import pandas as pd
+
+    values = [5.01, 4.87, 5.12, 4.95, 5.20, 4.91]
+    pd.DataFrame({"run": [f"r{i}" for i in range(6)], "As": values}).to_excel(tmp_path / "qc.xlsx", index=False)
+    text = budget_with("    reproducibility:\n      control: {file: qc.xlsx, column: As, run_column: run}\n"
+                       "      unit: ug/L")
+    path = tmp_path / "b.yaml"
+    path.write_text(text.replace("model: 'y = x * F'", "model: 'y = x + F'"))
+    q = load_budget(path).quantities["F"]
+    assert q.standard_uncertainty == pytest.approx(np.std(values, ddof=1), rel=1e-12)  # numpy recomputation
+    assert q.dof == 5

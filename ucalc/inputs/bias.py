@@ -23,7 +23,7 @@ import math
 import statistics
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import ClassVar
+from typing import Any, ClassVar
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
@@ -253,3 +253,12 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
                  description=spec.description or "method and laboratory bias", model="bias",
                  working=tuple(working), location=location)
     return Derived((q,), warnings=warnings)
+
+
+def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
+    """Correcting the results for a significant bias (its square then leaves u(bias)); a bias that is not
+    significant is better left uncorrected (TR 537 5), so no action is offered for it."""
+    block = raw["bias"]
+    if block.get("correct") is True or not estimate(BiasSpec.model_validate(block)).significant:
+        return []
+    return [("correct the results for the bias (correct: true)", {**raw, "bias": {**block, "correct": True}})]
