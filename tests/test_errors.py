@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 import pytest
 
 from ucalc.budget.load import load_budget_text
@@ -124,3 +126,93 @@ def test_infinite_dof_may_be_written() -> None:
     text = GOOD.replace("{name: balance, expanded: 0.1, k: 2}", "{name: balance, expanded: 0.1, k: 2, dof: .inf}")
     budget = load_budget_text(text, "b.yaml")
     assert budget.quantities["m"].dof == float("inf")
+
+
+# ---- the error classes: one module, structured fields, pickling, parameters shown as options by the CLI ----
+
+
+def _all_errors() -> list[Exception]:
+    from ucalc import errors
+
+    where = errors.Location("b.yaml", 3, 7)
+    return [
+        errors.UcalcError("plain text"),
+        errors.BudgetError("must be a number", location=where, subject="input 'm'"),
+        errors.BudgetErrors([errors.BudgetError("b", location=errors.Location("b.yaml", 9, 1)),
+                             errors.BudgetError("a", location=where)]),
+        errors.ExpressionError("'^' is not a power operator; write '**'", 5),
+        errors.UnitError("cannot add 'mL' to 'mg'", 3),
+        errors.ComputationError("needs uncorrelated inputs", subject="second_order", location=errors.Location("b")),
+        errors.MonteCarloError("every trial gave a non-finite model value"),
+        errors.OutputError("out.csv", "is a folder; give a file name"),
+        errors.OptionError("target", "must be positive (got '-1')"),
+    ]
+
+
+def test_every_error_class_lives_in_the_errors_module() -> None:
+    import re
+
+    from .conftest import ROOT
+
+    found = []
+    for path in (ROOT / "ucalc").rglob("*.py"):
+        if path.name != "errors.py":
+            text = path.read_text(encoding="utf-8")
+            found += [f"{path.name}: {m}" for m in re.findall(r"^class (\w+(?:Error|Errors))\b", text, re.M)]
+    assert found == []
+
+
+def test_error_messages_are_built_from_their_fields() -> None:
+    assert [str(e) for e in _all_errors()] == [
+        "plain text",
+        "b.yaml:3:7: input 'm': must be a number",
+        "b.yaml:3:7: a\nb.yaml:9:1: b",
+        "'^' is not a power operator; write '**'",
+        "cannot add 'mL' to 'mg'",
+        "b: second_order: needs uncorrelated inputs",
+        "Monte Carlo: every trial gave a non-finite model value",
+        "out.csv: is a folder; give a file name",
+        "target: must be positive (got '-1')",
+    ]
+
+
+def test_errors_pickle_with_their_fields() -> None:
+    import pickle
+
+    for error in _all_errors():
+        copy = pickle.loads(pickle.dumps(error))  # noqa: S301 - our own objects, round trip
+        assert type(copy) is type(error)
+        assert str(copy) == str(error)
+        assert {k: str(v) for k, v in vars(copy).items()} == {k: str(v) for k, v in vars(error).items()}
+
+
+def test_the_command_line_names_its_options(write_budget: Any) -> None:
+    from typer.testing import CliRunner
+
+    from ucalc.cli import app
+
+    runner = CliRunner()
+    path = write_budget(GOOD + "correlations:\n  - {between: [m, V], r: 0.5}\n")
+    result = runner.invoke(app, ["run", str(path), "--second-order"])
+    assert result.exit_code == 2
+    assert result.stderr == (f"{path}: --second-order: second-order terms (JCGM 100 5.1.2 note) need uncorrelated "
+                             "inputs\n")
+    result = runner.invoke(app, ["improve", str(path), "--target", "5x"])
+    assert (result.exit_code, result.stderr) == (2, "--target: '5x' is not a number or a percentage such as 5%\n")
+
+
+def test_the_python_interface_names_its_parameters(write_budget: Any) -> None:
+    import ucalc
+    from ucalc.errors import ComputationError, OptionError
+
+    budget = ucalc.load(write_budget(GOOD + "correlations:\n  - {between: [m, V], r: 0.5}\n", "c.yaml"))
+    with pytest.raises(ComputationError) as info:
+        budget.propagate(second_order=True)
+    assert info.value.subject == "second_order"
+    assert str(info.value).endswith("c.yaml: second_order: second-order terms (JCGM 100 5.1.2 note) need "
+                                    "uncorrelated inputs")
+    import pandas as pd
+
+    with pytest.raises(OptionError) as option:
+        ucalc.batch(budget, pd.DataFrame({"m": [100.0]}), maps={"mass": "m"})
+    assert str(option.value) == "maps: 'mass' is not an input of the budget; inputs are P, V, m"

@@ -6,19 +6,36 @@ Heavy libraries are imported inside the commands so that ``ucalc --help`` starts
 
 from __future__ import annotations
 
+import copy
 import sys
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from enum import StrEnum
 from pathlib import Path
-from typing import TYPE_CHECKING, Annotated
+from typing import TYPE_CHECKING, Annotated, Any
 
 import typer
+from typer.core import TyperGroup
+
+from .errors import BudgetErrors, UcalcError
 
 if TYPE_CHECKING:
     from rich.console import Console
 
+class _Commands(TyperGroup):
+    """The command group; its one error handler prints ucalc's errors as lines on stderr and exits with code 2."""
+
+    def invoke(self, ctx: Any) -> Any:
+        try:
+            return super().invoke(ctx)
+        except UcalcError as exc:
+            for line in error_lines(exc):
+                typer.echo(line, err=True)
+            raise typer.Exit(EXIT_BAD_INPUT) from None
+
+
 app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_enable=False, rich_markup_mode=None,
+                  cls=_Commands,
                   help="Measurement-uncertainty budgets: check, propagate (GUM, Monte Carlo), report, plan "
                   "improvements and attach results to sample tables.")
 
@@ -56,26 +73,31 @@ class ReportFormat(StrEnum):
 BudgetArg = Annotated[Path, typer.Argument(help="budget file (YAML, format version 1)", show_default=False)]
 
 
-def _fail(exc: Exception) -> None:
-    from .errors import BudgetErrors
+# parameters named in errors (their Python names) -> the options that set them on the command line
+FLAGS = {"second_order": "--second-order", "trials": "--trials", "digits": "--digits", "target": "--target",
+         "maps": "--map", "limit_column": "--limit-column", "loq_column": "--loq-column",
+         "analyte_column": "--analyte-column"}
 
-    lines = [e.message for e in exc.errors] if isinstance(exc, BudgetErrors) else [str(exc)]
-    for line in lines:
-        typer.echo(line, err=True)
-    raise typer.Exit(EXIT_BAD_INPUT)
+
+def error_lines(exc: UcalcError) -> list[str]:
+    """The lines printed for an error: one per problem, parameters named by their command-line options."""
+    if isinstance(exc, BudgetErrors):
+        return [line for e in exc.errors for line in error_lines(e)]
+    for attribute in ("option", "subject"):
+        name = getattr(exc, attribute, None)
+        if isinstance(name, str) and name in FLAGS:
+            shown = copy.copy(exc)
+            setattr(shown, attribute, FLAGS[name])
+            return [str(shown)]
+    return [str(exc)]
 
 
 @app.command()
 def check(budget: BudgetArg) -> None:
     """Validate a budget; list every problem as FILE:LINE:COL and exit 2 if there is any."""
-    from .errors import UcalcError
     from .workflow import check_budget
 
-    try:
-        b = check_budget(budget)
-    except UcalcError as exc:
-        _fail(exc)
-        return
+    b = check_budget(budget)
     for warning in b.warnings:
         typer.echo(f"{budget}: warning: {warning}", err=True)
     typer.echo(f"{budget}: ok ({len(b.model.inputs)} inputs, {len(b.model.lines)} model lines)")
@@ -104,17 +126,12 @@ def run(
     = None,
 ) -> None:
     """Propagate a budget and print the budget table and the expanded uncertainty."""
-    from .errors import UcalcError
     from .workflow import MonteCarloOptions, evaluate
 
     options = MonteCarloOptions(trials=trials, seed=seed, adaptive=adaptive, digits=digits)
-    try:
-        with _progress(method is not Method.gum and (adaptive or trials >= 2_000_000)) as progress:
-            result = evaluate(budget, method=method.value, second_order=second_order, mc=options,
-                              progress=progress, settings=set_)
-    except UcalcError as exc:
-        _fail(exc)
-        return
+    with _progress(method is not Method.gum and (adaptive or trials >= 2_000_000)) as progress:
+        result = evaluate(budget, method=method.value, second_order=second_order, mc=options,
+                          progress=progress, settings=set_)
     if format is Format.json:
         from .reports.jsonout import dumps, evaluation_json
 
@@ -159,18 +176,13 @@ def report_command(
     force: Annotated[bool, typer.Option("--force", help="replace an existing output file")] = False,
 ) -> None:
     """Write a self-contained HTML (or Markdown) report of a budget for the accreditation file."""
-    from .errors import UcalcError
     from .workflow import MonteCarloOptions, report
 
     fmt = format.value if format else ("md" if output.suffix.lower() in (".md", ".markdown") else "html")
     options = MonteCarloOptions(trials=trials, seed=seed)
-    try:
-        with _progress(method is not Method.gum and trials >= 2_000_000) as progress:
-            written = report(budget, output, fmt="md" if fmt == "md" else "html", method=method.value, mc=options,
-                             force=force, digits=digits, progress=progress)
-    except UcalcError as exc:
-        _fail(exc)
-        return
+    with _progress(method is not Method.gum and trials >= 2_000_000) as progress:
+        written = report(budget, output, fmt="md" if fmt == "md" else "html", method=method.value, mc=options,
+                         force=force, digits=digits, progress=progress)
     typer.echo(f"wrote {written}")
 
 
@@ -186,21 +198,16 @@ def improve_command(
     force: Annotated[bool, typer.Option("--force", help="replace an existing chart file")] = False,
 ) -> None:
     """What each change would buy in U, the step to improve first, and whether a target is reachable."""
-    from .errors import UcalcError
     from .workflow import improve
 
-    try:
-        if format not in (Format.text, Format.json):
-            raise UcalcError("--format for improve is text or json")
-        result = improve(budget, target=target, settings=set_)
-        if chart is not None:
-            from .outputs import write_atomic
-            from .reports.improvement import chart as draw
+    if format not in (Format.text, Format.json):
+        raise UcalcError("--format for improve is text or json")
+    result = improve(budget, target=target, settings=set_)
+    if chart is not None:
+        from .outputs import write_atomic
+        from .reports.improvement import chart as draw
 
-            write_atomic(chart, draw(result), force=force, inputs=[budget])
-    except UcalcError as exc:
-        _fail(exc)
-        return
+        write_atomic(chart, draw(result), force=force, inputs=[budget])
     from .reports import improvement
 
     if format is Format.json:
@@ -244,22 +251,17 @@ def batch_command(
     force: Annotated[bool, typer.Option("--force", help="replace an existing output file")] = False,
 ) -> None:
     """Attach U, a result statement and (with a limit) a decision to every sample of a table."""
-    from .errors import UcalcError
     from .samples.table import BatchOptions, batch, parse_maps
 
-    try:
-        if limit is not None and limit_column is not None:
-            raise UcalcError("give --limit or --limit-column, not both")
-        if loq is not None and loq_column is not None:
-            raise UcalcError("give --loq or --loq-column, not both")
-        options = BatchOptions(maps=parse_maps(map_ or []), limit=limit, limit_column=limit_column,
-                               rule=rule.value.replace("-", "_"), side=side.value,  # type: ignore[arg-type]
-                               loq=loq, loq_column=loq_column, analyte_column=analyte_column, digits=digits)
-        with _progress(True) as progress:
-            summary = batch(budget, table, output, options, force=force, progress=progress)
-    except UcalcError as exc:
-        _fail(exc)
-        return
+    if limit is not None and limit_column is not None:
+        raise UcalcError("give --limit or --limit-column, not both")
+    if loq is not None and loq_column is not None:
+        raise UcalcError("give --loq or --loq-column, not both")
+    options = BatchOptions(maps=parse_maps(map_ or []), limit=limit, limit_column=limit_column,
+                           rule=rule.value.replace("-", "_"), side=side.value,  # type: ignore[arg-type]
+                           loq=loq, loq_column=loq_column, analyte_column=analyte_column, digits=digits)
+    with _progress(True) as progress:
+        summary = batch(budget, table, output, options, force=force, progress=progress)
     decided = ", ".join(f"{count} {name}" for name, count in sorted(summary.decisions.items()))
     line = f"{summary.output}: {summary.rows} rows, {summary.failed} failed"
     if summary.below_loq:
@@ -285,17 +287,12 @@ def compare_command(
     format: Annotated[Format, typer.Option("--format", "-f", help="text or json")] = Format.text,
 ) -> None:
     """Set the budget's u against the within-lab reproducibility the QC data show: ratio, F-test, verdict."""
-    from .errors import UcalcError
     from .qc.compare import compare
     from .reports import qc
 
-    try:
-        if format not in (Format.text, Format.json):
-            raise UcalcError("--format for compare is text or json")
-        result = compare(budget, data, column, run_column, level_column)
-    except UcalcError as exc:
-        _fail(exc)
-        return
+    if format not in (Format.text, Format.json):
+        raise UcalcError("--format for compare is text or json")
+    result = compare(budget, data, column, run_column, level_column)
     if format is Format.json:
         from .reports.jsonout import dumps
 
@@ -355,21 +352,16 @@ def proficiency_command(
     force: Annotated[bool, typer.Option("--force", help="replace an existing chart file")] = False,
 ) -> None:
     """z, zeta and E_n scores of proficiency-testing rounds (ISO 13528) and whether the lab's U looks too small."""
-    from .errors import UcalcError
     from .qc.proficiency import from_table
     from .reports import qc
 
-    try:
-        if format is Format.md:
-            raise UcalcError("--format for proficiency is text, json or csv")
-        result = from_table(str(table), k)
-        if chart is not None:
-            from .outputs import write_atomic
+    if format is Format.md:
+        raise UcalcError("--format for proficiency is text, json or csv")
+    result = from_table(str(table), k)
+    if chart is not None:
+        from .outputs import write_atomic
 
-            write_atomic(chart, qc.proficiency_chart(result), force=force, inputs=[table])
-    except UcalcError as exc:
-        _fail(exc)
-        return
+        write_atomic(chart, qc.proficiency_chart(result), force=force, inputs=[table])
     if format is Format.json:
         from .reports.jsonout import dumps
 

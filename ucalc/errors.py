@@ -1,17 +1,49 @@
-"""ucalc's own exceptions.
+"""ucalc's own exceptions, all of them.
 
 Every problem a user can cause is a :class:`UcalcError`; the CLI turns it into one line per problem on stderr and
 exit code 2. Anything else escaping the CLI is a bug. Fields are stored on the exception and the message is built
-from them, so tests can pin the exact text.
+from them, so tests can pin the exact text; an error names a function's parameter by its Python name
+(``second_order``), and the CLI shows the matching option (``--second-order``). Every error pickles with its
+fields (for process pools and notebook tools).
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Any
+
+
+def _restore(cls: type[UcalcError], args: tuple[Any, ...], state: dict[str, Any]) -> UcalcError:
+    error = cls.__new__(cls)
+    error.args = args
+    error.__dict__.update(state)
+    return error
 
 
 class UcalcError(Exception):
     """Base class of every error ucalc raises on bad input."""
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        return _restore, (type(self), self.args, dict(self.__dict__))
+
+
+class OptionError(UcalcError, ValueError):
+    """A value given to a function (an option on the command line) that cannot be used.
+
+    ``option`` is the parameter's Python name (``target``, ``maps``, ``limit_column``).
+    """
+
+    def __init__(self, option: str, rule: str) -> None:
+        self.option = option
+        self.rule = rule
+        super().__init__(self.message)
+
+    @property
+    def message(self) -> str:
+        return f"{self.option}: {self.rule}"
+
+    def __str__(self) -> str:
+        return self.message
 
 
 @dataclass(frozen=True)
@@ -94,3 +126,23 @@ class ComputationError(UcalcError, ArithmeticError):
         if self.location is None:
             self.location = Location(file)
         return self
+
+
+class MonteCarloError(ComputationError):
+    """A Monte Carlo run that cannot be trusted; ``partial`` holds what was computed."""
+
+    def __init__(self, rule: str, partial: Any = None) -> None:
+        super().__init__(rule, subject="Monte Carlo")
+        self.partial = partial
+
+
+class OutputError(UcalcError, OSError):
+    """An output that cannot or must not be written."""
+
+    def __init__(self, path: str | Any, rule: str) -> None:
+        self.path = str(path)
+        self.rule = rule
+        super().__init__(f"{path}: {rule}")
+
+    def __str__(self) -> str:
+        return f"{self.path}: {self.rule}"

@@ -11,19 +11,9 @@ import tempfile
 from collections.abc import Iterable
 from pathlib import Path
 
-from .errors import UcalcError
+from .errors import OutputError
 
-
-class OutputError(UcalcError, OSError):
-    """An output that cannot or must not be written."""
-
-    def __init__(self, path: str | Path, rule: str) -> None:
-        self.path = str(path)
-        self.rule = rule
-        super().__init__(f"{path}: {rule}")
-
-    def __str__(self) -> str:
-        return f"{self.path}: {self.rule}"
+__all__ = ["OutputError", "write_atomic"]
 
 
 def _same(a: Path, b: Path) -> bool:

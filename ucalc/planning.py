@@ -23,7 +23,7 @@ from typing import Any
 from .budget.definitions import Budget, Quantity
 from .budget.yamlio import Document
 from .engines.gum import GumResult, propagate
-from .errors import UcalcError
+from .errors import OptionError, UcalcError
 
 MAX_EXHAUSTIVE = 3000
 
@@ -98,9 +98,9 @@ def parse_target(text: str, value: float) -> float:
         else:
             target = float(raw)
     except ValueError:
-        raise UcalcError(f"--target '{text}' is not a number or a percentage such as 5%") from None
+        raise OptionError("target", f"'{text}' is not a number or a percentage such as 5%") from None
     if not math.isfinite(target) or target <= 0:
-        raise UcalcError(f"--target must be positive (got '{text}')")
+        raise OptionError("target", f"must be positive (got '{text}')")
     return target
 
 

@@ -93,7 +93,7 @@ def propagate(budget: Budget, *, second_order: bool = False) -> GumResult:
     if second_order:
         if any(budget.correlation(a, b) for a in names for b in names if a != b):
             raise ComputationError("second-order terms (JCGM 100 5.1.2 note) need uncorrelated inputs",
-                                   subject="--second-order")
+                                   subject="second_order")
         second = _second_order(budget, names, env, u, c)
     variance_s = first_s + cross_s + ((second / scale) / scale if second else 0.0)
     if variance_s < 0:
@@ -168,5 +168,5 @@ def _second_order(budget: Budget, names: tuple[str, ...], env: dict[str, Any], u
             d3 = float(model.evaluate_tree(model.derivative(a, b, b), env))
             total += (0.5 * d2 * d2 + c[i] * d3) * u[i] ** 2 * u[j] ** 2
     if not math.isfinite(total):
-        raise ComputationError("second-order terms are not finite at the estimates", subject="--second-order")
+        raise ComputationError("second-order terms are not finite at the estimates", subject="second_order")
     return total

@@ -16,7 +16,7 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, Literal
 
 from ..budget.definitions import Budget
-from ..errors import ComputationError
+from ..errors import ComputationError, MonteCarloError
 from ..results import ResultMethods
 
 if TYPE_CHECKING:
@@ -155,14 +155,6 @@ class MonteCarloResult(ResultMethods):
         return self.standard_uncertainty is not None
 
 
-class MonteCarloError(ComputationError):
-    """A Monte Carlo run that cannot be trusted; ``partial`` holds what was computed."""
-
-    def __init__(self, rule: str, partial: MonteCarloResult | None = None) -> None:
-        super().__init__(rule, subject="Monte Carlo")
-        self.partial = partial
-
-
 def coverage_probability_for(budget: Budget) -> float:
     """The budget's probability, or for a fixed k the Gaussian probability of ±k (k = 2 gives 95.45 %)."""
     if budget.coverage.probability is not None:
@@ -229,10 +221,10 @@ class Sampler:
 
 def _check_trials(trials: int) -> None:
     if trials < MIN_TRIALS:
-        raise ComputationError(f"at least {MIN_TRIALS} trials are needed (got {trials})", subject="--trials")
+        raise ComputationError(f"at least {MIN_TRIALS} trials are needed (got {trials})", subject="trials")
     if trials > MAX_TRIALS:
         raise ComputationError(f"{trials:.3g} trials is more than the {MAX_TRIALS:.0e} ucalc runs; use --adaptive "
-                               "to stop when the figures are stable", subject="--trials")
+                               "to stop when the figures are stable", subject="trials")
 
 
 def _run_trials(budget: Budget, sampler: Sampler, trials: int, block_size: int,
@@ -260,7 +252,7 @@ def _output_array(trials: int) -> np.ndarray:
     except MemoryError:
         raise ComputationError(f"{trials:,} trials need {8 * trials / 1e9:.1f} GB for the output values, more "
                                "than this machine can hold; use fewer trials or --adaptive",
-                               subject="--trials") from None
+                               subject="trials") from None
 
 
 def _ranks(m: int, p: float) -> tuple[int, int]:
@@ -482,7 +474,7 @@ def simulate_adaptive(budget: Budget, *, digits: int = 2, seed: int | None = Non
     import numpy as np
 
     if digits < 1 or digits > 6:
-        raise ComputationError(f"digits must be between 1 and 6 (got {digits})", subject="--digits")
+        raise ComputationError(f"digits must be between 1 and 6 (got {digits})", subject="digits")
     _check_trials(max_trials)
     seed = new_seed() if seed is None else seed
     p = coverage_probability_for(budget)

@@ -16,7 +16,7 @@ from pathlib import Path
 from typing import Any
 
 from ..budget.definitions import Budget
-from ..errors import BudgetError, BudgetErrors, Location, UcalcError
+from ..errors import BudgetError, BudgetErrors, Location, OptionError, UcalcError
 from .decisions import RULE_TEXT, Rule, Side, decide, probability_of_conformance
 
 CHUNK = 20_000
@@ -50,10 +50,10 @@ def parse_maps(items: list[str]) -> dict[str, str]:
     maps: dict[str, str] = {}
     for item in items:
         if "=" not in item:
-            raise UcalcError(f"--map {item}: write INPUT=COLUMN")
+            raise OptionError("maps", f"'{item}': write INPUT=COLUMN")
         name, column = (part.strip() for part in item.split("=", 1))
         if not name or not column:
-            raise UcalcError(f"--map {item}: write INPUT=COLUMN")
+            raise OptionError("maps", f"'{item}': write INPUT=COLUMN")
         maps[name] = column
     return maps
 
@@ -72,8 +72,7 @@ def choose_budgets(source: Path | Budget, frame: Any,
         raise BudgetError("budget path is neither a file nor a folder", location=Location(str(source)))
     column = options.analyte_column
     if column not in frame.columns:
-        raise UcalcError(f"a folder of budgets needs an analyte column '{column}' in the table "
-                         "(or --analyte-column NAME)")
+        raise OptionError("analyte_column", f"a folder of budgets needs the table's analyte column '{column}'")
     from ..budget.load import load_budget
 
     files = _budget_files(source)
@@ -110,7 +109,7 @@ def _per_row(frame: Any, option: str, column: str | None, value: float | None) -
 
     if column:
         if column not in frame.columns:
-            raise UcalcError(f"{option}: the table has no column '{column}'")
+            raise OptionError(option, f"the table has no column '{column}'")
         return _numbers(frame, column)
     return np.full(len(frame), np.nan if value is None else value)
 
@@ -120,11 +119,11 @@ def _per_row_names(budget: Budget, raw_inputs: dict[str, Any], frame: Any, maps:
     names = {n for n in budget.model.inputs} | {n for n in raw_inputs if n in budget.quantities}
     unknown = [n for n in maps if n not in names]
     if unknown:
-        raise UcalcError(f"--map {unknown[0]}=...: '{unknown[0]}' is not an input of the budget; inputs are "
-                         f"{', '.join(sorted(names))}")
-    missing = [f"{n}={c}" for n, c in maps.items() if c not in frame.columns]
+        raise OptionError("maps", f"'{unknown[0]}' is not an input of the budget; inputs are "
+                                  f"{', '.join(sorted(names))}")
+    missing = [(n, c) for n, c in maps.items() if c not in frame.columns]
     if missing:
-        raise UcalcError(f"--map {missing[0]}: the table has no such column")
+        raise OptionError("maps", f"'{missing[0][0]}={missing[0][1]}': the table has no column '{missing[0][1]}'")
     out = {n: maps.get(n, n) for n in sorted(names) if maps.get(n, n) in frame.columns}
     return {n: c for n, c in out.items() if n in budget.model.inputs}
 
@@ -153,8 +152,8 @@ def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
     out = frame.copy()
     results: dict[str, Any] = {c: np.full(n, np.nan) for c in ("value", "u", "nu_eff", "k", "U", "U_rel")}
     text: dict[str, list[str]] = {c: [""] * n for c in ("unit", "statement", "error")}
-    limits = _per_row(frame, "--limit-column", options.limit_column, options.limit)
-    loq = _per_row(frame, "--loq-column", options.loq_column, options.loq)
+    limits = _per_row(frame, "limit_column", options.limit_column, options.limit)
+    loq = _per_row(frame, "loq_column", options.loq_column, options.loq)
     done = 0
     for analyte, (path, index) in choose_budgets(source, frame, options).items():
         positions = frame.index.get_indexer(index)
