@@ -3,8 +3,8 @@
 Every problem a user can cause is a :class:`UcalcError`; the CLI turns it into one line per problem on stderr and
 exit code 2. Anything else escaping the CLI is a bug. Fields are stored on the exception and the message is built
 from them, so tests can pin the exact text; an error names a function's parameter by its Python name
-(``second_order``), and the CLI shows the matching option (``--second-order``). Every error pickles with its
-fields (for process pools and notebook tools).
+(``second_order``), and the CLI shows the matching option (``--second-order``). Every error can be serialised
+and rebuilt with its fields (``__reduce__``), for process pools and notebook tools.
 """
 
 from __future__ import annotations
