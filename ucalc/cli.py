@@ -314,26 +314,21 @@ def working_range_command(
     force: Annotated[bool, typer.Option("--force", help="replace an existing chart file")] = False,
 ) -> None:
     """Fit u(c) = sqrt(u0^2 + (b c)^2) to the precision at each level of QC or validation data."""
-    from .errors import UcalcError
     from .qc.range_fit import fit, levels_from_data
     from .reports import qc
 
+    if format not in (Format.text, Format.json):
+        raise UcalcError("--format for working-range is text or json")
     try:
-        if format not in (Format.text, Format.json):
-            raise UcalcError("--format for working-range is text or json")
-        try:
-            result = fit(levels_from_data(str(data), column, level_column, run_column))
-        except ValueError as exc:
-            if isinstance(exc, UcalcError):
-                raise
-            raise UcalcError(f"{data}: {exc}") from None
-        if chart is not None:
-            from .outputs import write_atomic
+        result = fit(levels_from_data(str(data), column, level_column, run_column))
+    except ValueError as exc:
+        if isinstance(exc, UcalcError):
+            raise
+        raise UcalcError(f"{data}: {exc}") from None
+    if chart is not None:
+        from .outputs import write_atomic
 
-            write_atomic(chart, qc.range_chart(result, unit), force=force, inputs=[data])
-    except UcalcError as exc:
-        _fail(exc)
-        return
+        write_atomic(chart, qc.range_chart(result, unit), force=force, inputs=[data])
     if format is Format.json:
         from .reports.jsonout import dumps
 
