@@ -113,3 +113,11 @@ def test_run_and_batch_use_the_budgets_limits(tmp_path) -> None:
     # --loq on the command line still wins over the budget's
     res = runner.invoke(app, ["batch", str(path), str(table), "-o", str(out), "--loq", "0.01", "--force"])
     assert "below the limit of quantification" not in pd.read_csv(out)["statement"][1]
+
+
+def test_report_states_the_limits(tmp_path) -> None:
+    out = tmp_path / "r.md"
+    res = runner.invoke(app, ["report", "budgets/arsenic-top-down.yaml", "-o", str(out), "--method", "gum"])
+    assert res.exit_code == 0, res.output
+    s0 = np.std(BLANKS, ddof=1) * math.sqrt(1 + 1 / 10)  # ISO 11843-2 blank form, numpy recomputation
+    assert f"LOD {limits.delta(9) * s0:.3g} µg/L" in out.read_text()

@@ -244,8 +244,10 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
             warnings = (f"the bias ({est.bias:.3g}{' relative' if bs.relative else ''}) is significant and is "
                         "included in u(bias) without correction; consider 'correct: true' or finding its cause",)
     scale = abs(value) if bs.relative else 1.0
+    # Only the scatter of a mean is a scaled t in Monte Carlo (JCGM 101 6.4.9); an RMS of biases is Gaussian
+    # with its dof kept for Welch-Satterthwaite.
     comps = tuple(
-        Component(label, Distribution("normal" if math.isinf(dof) else "t", u * scale, dof),
+        Component(label, Distribution("t" if label.startswith("scatter") else "normal", u * scale, dof),
                   "B" if math.isinf(dof) else "A", f"{u:.4g}{' (relative)' if bs.relative else ''}",
                   relative=bs.relative)
         for label, u, dof in parts if u > 0)

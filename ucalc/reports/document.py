@@ -59,6 +59,10 @@ def build(budget: Budget, gum: GumResult, mc: MonteCarloResult | None = None, *,
         "p": probability_text(gum.coverage_probability) if gum.coverage_probability else "fixed k",
         "second_order": gum.second_order, "notes": list(gum.notes),
     }
+    if budget.limits is not None:  # the budget's LOD/LOQ (docs/top-down.md), stated with the result
+        from .qc import limits_lines
+
+        result["notes"].append(limits_lines(budget.limits, mu)[0])
     data: dict[str, Any] = {
         "title": budget.title, "symbol": budget.measurand.symbol, "unit": mu,
         "description": budget.measurand.description, "date": when.strftime("%Y-%m-%d %H:%M UTC"),
