@@ -26,6 +26,15 @@ def _divisor(c: Any) -> str:
     return {"rectangular": "√3", "triangular": "√6", "arcsine": "√2"}.get(shape, "1")
 
 
+def _limits_note(budget: Budget, unit: str) -> list[str]:
+    """The budget's LOD/LOQ (docs/top-down.md), stated with the result."""
+    if budget.limits is None:
+        return []
+    from .qc import limits_lines
+
+    return [limits_lines(budget.limits, unit)[0]]
+
+
 def build(budget: Budget, gum: GumResult, mc: MonteCarloResult | None = None, *, digits: int = 2,
           charts: bool = True, generated: _dt.datetime | None = None) -> dict[str, Any]:
     """A dictionary of strings and lists for the report templates."""
@@ -57,12 +66,8 @@ def build(budget: Budget, gum: GumResult, mc: MonteCarloResult | None = None, *,
         "value": num(gum.value, 10), "u": num(gum.standard_uncertainty, 4), "dof": dof_text(gum.effective_dof),
         "k": f"{gum.coverage_factor:.3f}", "U": num(gum.expanded_uncertainty, 4),
         "p": probability_text(gum.coverage_probability) if gum.coverage_probability else "fixed k",
-        "second_order": gum.second_order, "notes": list(gum.notes),
+        "second_order": gum.second_order, "notes": list(gum.notes) + _limits_note(budget, mu),
     }
-    if budget.limits is not None:  # the budget's LOD/LOQ (docs/top-down.md), stated with the result
-        from .qc import limits_lines
-
-        result["notes"].append(limits_lines(budget.limits, mu)[0])
     data: dict[str, Any] = {
         "title": budget.title, "symbol": budget.measurand.symbol, "unit": mu,
         "description": budget.measurand.description, "date": when.strftime("%Y-%m-%d %H:%M UTC"),
