@@ -35,7 +35,7 @@ def test_run_json_keys_and_values() -> None:
     assert round(data["standard_uncertainty"] * 1e6) == 32  # JCGM 100 H.1.5: u_c = 32 nm  # from memory
     row = data["contributions"][0]
     assert set(row) == {"input", "value", "unit", "standard_uncertainty", "dof", "sensitivity", "contribution",
-                        "index"}
+                        "variance_share"}
     assert data["contributions"][0]["input"] == "l_s"  # largest contribution first (25 nm, Table H.1)
 
 

@@ -42,16 +42,15 @@ class Component:
 
 
 def welch_satterthwaite(parts: list[tuple[float, float]]) -> float:
-    """nu = (sum u_i^2)^2 / sum(u_i^4 / nu_i) over (u_i, nu_i) pairs (JCGM 100 G.4.1, eq. G.2b)."""
+    """nu = (sum u_i^2)^2 / sum(u_i^4 / nu_i) over (u_i, nu_i) pairs (JCGM 100 G.4.1, eq. G.2b), by the GUM
+    kernel's :func:`ucalc.engines.gum.effective_dof`."""
+    from ..engines.gum import combine
+
     live = [(u, nu) for u, nu in parts if u > 0]
-    if len(live) == 1:
-        return live[0][1]  # exact for a single term (avoids rounding in u^4/u^4)
-    scale = max((u for u, _ in live), default=1.0)  # scale-free ratio: no overflow or underflow of u^4
-    total = sum((u / scale) ** 2 for u, _ in live)
-    denom = sum((u / scale) ** 4 / nu for u, nu in live if not math.isinf(nu))
-    if denom == 0.0:
+    if not live:
         return math.inf
-    return total * total / denom
+    _, nu, _, _, _ = combine([[u] for u, _ in live], [[nu] for _, nu in live], [])
+    return float(nu[0])
 
 
 @dataclass(frozen=True)

@@ -1,8 +1,16 @@
 """The law of propagation of uncertainty (JCGM 100:2008, clause 5) and the expanded uncertainty (clause 6, G).
 
-u_c^2 = sum c_i^2 u_i^2 + 2 sum_{i<j} c_i c_j r_ij u_i u_j (5.1.2, 5.2.2), with exact sensitivity coefficients
-c_i = df/dx_i (5.1.3) from symbolic differentiation; optional second-order terms for uncorrelated inputs
-(5.1.2 note); effective degrees of freedom by Welch-Satterthwaite (G.4.1); k = t_p(nu_eff) (G.3, G.6.4).
+This module is the only place of the package where u_c, the effective degrees of freedom and the coverage
+factor are computed. It works on arrays, one entry per row (a sample of a batch, a candidate of a plan, or the
+single row of ``ucalc run``):
+
+- u_c^2 = sum c_i^2 u_i^2 + 2 sum_{i<j} c_i c_j r_ij u_i u_j (5.1.2, 5.2.2), with exact sensitivity coefficients
+  c_i = df/dx_i (5.1.3) from symbolic differentiation;
+- optional second-order terms for uncorrelated inputs (5.1.2 note), with the fourth moment of each input's
+  stated distribution in place of the Gaussian 3 u^4 (see :func:`_second_order`);
+- the effective degrees of freedom by Welch-Satterthwaite (G.4.1), generalised to correlated inputs by
+  :func:`effective_dof`;
+- k = t_p(nu_eff) (G.3, G.6.4) from ``scipy.special`` (no scipy.stats import on this path).
 """
 
 from __future__ import annotations
@@ -15,10 +23,19 @@ from ..budget.definitions import Budget
 from ..errors import ComputationError
 from ..results import ResultMethods
 
+# fourth moment E[e^4]/u^4 of a component's distribution (kurtosis): rectangular 9/5, triangular 12/5,
+# arcsine 3/2 (moments of the uniform, triangular and arcsine laws, JCGM 101 6.4.3-6.4.6); Gaussian 3. A Type A
+# component enters the GUM as a Gaussian with standard uncertainty s/sqrt(n) (JCGM 100 4.2, G.3), so 3 as well.
+KURTOSIS = {"normal": 3.0, "t": 3.0, "rectangular": 9.0 / 5.0, "triangular": 12.0 / 5.0, "arcsine": 1.5}
+
 
 @dataclass(frozen=True)
 class Contribution:
-    """One input's row of the budget table; output quantities are in the measurand's unit."""
+    """One input's row of the budget table; output quantities are in the measurand's unit.
+
+    ``variance_share`` is the input's share of u_c^2 (see :func:`variance_shares`): the shares of all rows add up
+    to 1, and none is above 1, with or without correlations.
+    """
 
     input: str
     value: float
@@ -27,7 +44,7 @@ class Contribution:
     dof: float
     sensitivity: float
     contribution: float
-    index: float
+    variance_share: float
     kind: str
     shape: str
 
@@ -55,118 +72,328 @@ class GumResult(ResultMethods):
         return self.expanded_uncertainty / abs(self.value) if self.value else math.inf
 
 
-def coverage_factor(probability: float, dof: float) -> float:
-    """t_p(nu): the two-sided coverage factor of the t-distribution (JCGM 100 G.3.4, Table G.2)."""
-    from scipy import stats
+@dataclass(frozen=True)
+class Rows:
+    """The GUM on arrays: ``terms`` and ``sensitivities`` have one line per input of ``names`` and one column per
+    row; every other array has one entry per row. ``errors`` maps a row without a result to the reason."""
 
-    if math.isinf(dof) or dof > 1e12:  # beyond 1e12 dof the t quantile equals the Gaussian one to 1e-12
-        return float(stats.norm.ppf(0.5 + probability / 2.0))
-    return float(stats.t.ppf(0.5 + probability / 2.0, dof))
+    names: tuple[str, ...]
+    value: Any
+    sensitivities: Any
+    terms: Any
+    standard_uncertainty: Any
+    effective_dof: Any
+    coverage_factor: Any
+    expanded_uncertainty: Any
+    coverage_probability: float | None
+    uncorrelated_variance: Any
+    correlation_variance: Any
+    correlation_ratio: Any
+    errors: dict[int, str]
+
+
+def coverage_factors(probability: float, dof: Any) -> Any:
+    """t_p(nu) for an array of nu: the two-sided coverage factor of the t-distribution (JCGM 100 G.3.4, Table G.2).
+
+    Infinite nu (and nu beyond 1e12, where t and Gaussian quantiles agree to 1e-12) gives the Gaussian quantile.
+    Quantiles are computed once per distinct nu (rows share few after truncation, G.6.4).
+    """
+    import numpy as np
+    from scipy import special
+
+    nu = np.asarray(dof, dtype=float)
+    q = 0.5 + probability / 2.0
+    gaussian = ~np.isfinite(nu) | (nu > 1e12)
+    distinct, inverse = np.unique(np.where(gaussian, np.inf, nu), return_inverse=True)
+    with np.errstate(all="ignore"):
+        values = np.where(np.isinf(distinct), special.ndtri(q),
+                          special.stdtrit(np.where(np.isinf(distinct), 1.0, distinct), q))
+    return values[inverse.reshape(nu.shape)]
+
+
+def coverage_factor(probability: float, dof: float) -> float:
+    """t_p(nu) for one nu (JCGM 100 G.3.4, Table G.2); see :func:`coverage_factors`."""
+    return float(coverage_factors(probability, [dof])[0])
+
+
+def correlation_pairs(budget: Budget, names: tuple[str, ...]) -> list[tuple[int, int, float]]:
+    """(i, j, r_ij) with i < j for every non-zero correlation coefficient between inputs of ``names``."""
+    index = {n: i for i, n in enumerate(names)}
+    pairs = []
+    for (a, b), r in budget.correlations.items():
+        if r and a in index and b in index and a != b:
+            i, j = sorted((index[a], index[b]))
+            pairs.append((i, j, float(r)))
+    return sorted(pairs)
+
+
+def _blocks(m: int, pairs: list[tuple[int, int, float]]) -> list[list[int]]:
+    """Groups of inputs linked by non-zero correlations (connected components), each sorted."""
+    parent = list(range(m))
+
+    def find(i: int) -> int:
+        while parent[i] != i:
+            parent[i] = parent[parent[i]]
+            i = parent[i]
+        return i
+
+    for i, j, _ in pairs:
+        parent[find(i)] = find(j)
+    groups: dict[int, list[int]] = {}
+    for i in range(m):
+        groups.setdefault(find(i), []).append(i)
+    return list(groups.values())
+
+
+def combine(terms: Any, dofs: Any, pairs: list[tuple[int, int, float]]) -> tuple[Any, Any, Any, Any, Any]:
+    """u_c, nu_eff, the uncorrelated sum and the correlation part of (u_c/scale)^2, and the scale, per row, for
+    terms c_i u_i of shape (m, n).
+
+    Law of propagation: JCGM 100 5.1.2 and 5.2.2. Each row is scaled by its largest |c_i u_i| so that squares and
+    fourth powers neither overflow nor underflow. Degrees of freedom: :func:`effective_dof`.
+    """
+    import numpy as np
+
+    t = np.asarray(terms, dtype=float)
+    m = t.shape[0]
+    n = t.shape[1] if t.ndim == 2 else 1
+    t = t.reshape(m, n)
+    scale = np.max(np.abs(t), axis=0) if m else np.ones(n)
+    scale = np.where((scale > 0) & np.isfinite(scale), scale, 1.0)
+    s = t / scale
+    first = np.sum(s * s, axis=0)
+    cross = np.zeros(n)
+    for i, j, r in pairs:
+        cross = cross + 2.0 * r * s[i] * s[j]
+    variance = first + cross
+    nu = effective_dof(s, np.broadcast_to(np.asarray(dofs, dtype=float).reshape(m, -1), (m, n)), pairs, variance)
+    with np.errstate(over="ignore"):
+        return scale * np.sqrt(np.clip(variance, 0.0, None)), nu, first, cross, scale
+
+
+def effective_dof(s: Any, dofs: Any, pairs: list[tuple[int, int, float]], variance: Any) -> Any:
+    """Effective degrees of freedom with correlated inputs: nu_eff = u_c^4 / max(D_1, D_2), u_c^2 with the
+    correlation terms, t_i = c_i u_i, g_i = sum_j r_ij t_j (so that u_c^2 = sum_i t_i g_i):
+
+    - D_1 = sum_i t_i^4 / nu_i, JCGM 100 eq. (G.2b) over the terms one by one;
+    - D_2 = sum_B (sum_{i in B} |t_i g_i| / sqrt(nu_i))^2, B running over groups of inputs linked by non-zero
+      correlations. Welch-Satterthwaite rests on var(u_c^2) = 2 u_c^4 / nu_eff with a relative variance
+      1/(2 nu_i) of each u_i (JCGM 100 G.4.1, G.4.2, E.4.3); to first order input i contributes a standard
+      deviation 2 |t_i g_i| / sqrt(2 nu_i) to the estimate of u_c^2. Within a group the u_i may come from the same
+      data, so standard deviations add (the bound for any dependence between them, Minkowski's inequality);
+      independent groups add in variance.
+
+    Without correlations D_1 = D_2 (eq. G.2b exactly). Two inputs carrying the same Type A estimate with r = 1 get
+    that estimate's dof (D_2 governs). Where correlations cancel variance, D_1 governs: first order understates how
+    much the estimate of a small difference of correlated terms varies, and the smaller nu_eff is kept.
+    """
+    import numpy as np
+
+    m, n = s.shape
+    g = s.copy()
+    for i, j, r in pairs:
+        g[i] = g[i] + r * s[j]
+        g[j] = g[j] + r * s[i]
+    with np.errstate(all="ignore"):
+        a = np.where(np.isfinite(dofs) & (s != 0.0), np.abs(s * g) / np.sqrt(dofs), 0.0)
+    with np.errstate(all="ignore"):
+        one_by_one = np.sum(np.where(np.isfinite(dofs) & (s != 0.0), s ** 4 / dofs, 0.0), axis=0)
+    denom = one_by_one
+    if pairs:
+        grouped = np.zeros(n)
+        for block in _blocks(m, pairs):
+            part = np.sum(a[block], axis=0)
+            grouped = grouped + part * part
+        denom = np.maximum(one_by_one, grouped)
+    with np.errstate(all="ignore"):
+        nu = np.where((denom > 0) & (variance > 0), variance * variance / np.where(denom > 0, denom, 1.0), np.inf)
+    single = _single_term(s, dofs)
+    return np.where(np.isnan(single), nu, single)
+
+
+def _single_term(s: Any, dofs: Any) -> Any:
+    """nu_i itself where only input i has a non-zero term (exact; avoids rounding in t^4/t^4), NaN elsewhere."""
+    import numpy as np
+
+    live = s != 0.0
+    only = np.sum(live, axis=0) == 1
+    first = np.argmax(live, axis=0)
+    return np.where(only, dofs[first, np.arange(s.shape[1])], np.nan)
+
+
+def evaluate_rows(budget: Budget, env: dict[str, Any], u: dict[str, Any], dof: dict[str, Any], n: int) -> Rows:
+    """The GUM on ``n`` rows at once: ``env``, ``u`` and ``dof`` give, per input of the model, its estimate,
+    standard uncertainty and degrees of freedom (scalars for every row alike, or arrays of length n)."""
+    import numpy as np
+
+    model = budget.model
+    names = model.inputs
+    full = {name: np.broadcast_to(np.asarray(env[name], dtype=float), (n,)) for name in names}
+    with np.errstate(all="ignore"):
+        y = np.broadcast_to(np.asarray(model.function("numpy")(full), dtype=float), (n,)).copy()
+        c = np.empty((len(names), n))
+        for i, name in enumerate(names):
+            c[i] = np.asarray(model.evaluate_tree(model.derivative(name), full, "numpy"), dtype=float)
+        uu = np.array([np.broadcast_to(np.asarray(u[name], dtype=float), (n,)) for name in names]).reshape(-1, n)
+        dd = np.array([np.broadcast_to(np.asarray(dof[name], dtype=float), (n,)) for name in names]).reshape(-1, n)
+        terms = c * uu
+    errors: dict[int, str] = {}
+    bad_terms = ~np.isfinite(terms)
+    if bad_terms.any():
+        for row in np.flatnonzero(bad_terms.any(axis=0)):
+            errors[int(row)] = ("a sensitivity coefficient times its standard uncertainty is not finite; express "
+                                "the inputs in units that bring the numbers nearer 1")
+    under = (terms == 0.0) & (c != 0.0) & (uu != 0.0)
+    for row in np.flatnonzero(under.any(axis=0)):
+        errors.setdefault(int(row), "a sensitivity coefficient times its standard uncertainty underflows to zero; "
+                                    "express the inputs in units that bring the numbers nearer 1")
+    pairs = correlation_pairs(budget, names)
+    with np.errstate(all="ignore"):
+        uc, nu, first, cross, scale = combine(np.where(np.isfinite(terms), terms, 0.0), dd, pairs)
+    negative = (first + cross) < -1e-12 * first
+    for row in np.flatnonzero(negative):
+        relative = (cross[row] + first[row]) / first[row]
+        errors.setdefault(int(row), f"combined variance is negative (relative {relative:.3g}); check the correlations")
+    p = budget.coverage.probability
+    if budget.coverage.k is not None:
+        k = np.full(n, float(budget.coverage.k))
+        p_out = None
+    else:
+        assert p is not None
+        nu_used = np.floor(nu) if budget.coverage.dof_rounding == "down" else nu
+        for row in np.flatnonzero(nu_used < 1):
+            errors.setdefault(int(row), f"effective degrees of freedom {nu[row]:.3g} are below 1, so no coverage "
+                                        "factor follows from the probability; collect more data or state a fixed "
+                                        "'k' under 'coverage'")
+        k = coverage_factors(p, np.maximum(nu_used, 1.0))
+        p_out = p
+    for row in np.flatnonzero(~(np.isfinite(y) & np.isfinite(uc))):
+        errors.setdefault(int(row), "the result is not finite for this row's values")
+    with np.errstate(over="ignore"):
+        return Rows(names, y, c, terms, uc, nu, k, k * uc, p_out, first * scale * scale, cross * scale * scale,
+                    (first + cross) / np.where(first > 0, first, 1.0), errors)
+
+
+def variance_shares(terms: Any, pairs: list[tuple[int, int, float]]) -> Any:
+    """Each input's share of u_c^2, for one row of terms t_i = c_i u_i: a_i^2 / u_c^2 with a = R^(1/2) t.
+
+    R^(1/2) is the symmetric square root of the correlation matrix R, so u_c^2 = t' R t = sum a_i^2 (JCGM 100 5.2.2)
+    is split over independent sources, one per input; the shares are never negative, add up to 1 and equal
+    c_i^2 u_i^2 / u_c^2 (JCGM 100 5.1.2) when the inputs are uncorrelated.
+    """
+    import numpy as np
+
+    t = np.asarray(terms, dtype=float)
+    scale = float(np.max(np.abs(t))) if t.size else 0.0
+    if scale == 0.0:
+        return np.zeros_like(t)
+    s = t / scale
+    if not pairs:
+        a2 = s * s
+    else:
+        r = np.eye(len(s))
+        for i, j, rho in pairs:
+            r[i, j] = r[j, i] = rho
+        w, v = np.linalg.eigh(r)
+        root = (v * np.sqrt(np.clip(w, 0.0, None))) @ v.T
+        a2 = (root @ s) ** 2
+    total = float(np.sum(a2))
+    return a2 / total if total > 0 else np.zeros_like(t)
 
 
 def propagate(budget: Budget, *, second_order: bool = False) -> GumResult:
-    """Propagate a budget's uncertainties to the measurand by JCGM 100 clause 5."""
-    model = budget.model
-    names = model.inputs
-    env: dict[str, Any] = {n: budget.quantities[n].value for n in names}
-    y = float(model.function("float")(env))
+    """Propagate a budget's uncertainties to the measurand by JCGM 100 clause 5 (one row of the kernel)."""
+    names = budget.model.inputs
     q = [budget.quantities[n] for n in names]
-    u = [x.standard_uncertainty for x in q]
-    c = [float(model.evaluate_tree(model.derivative(n), env)) for n in names]
-    terms = [ci * ui for ci, ui in zip(c, u, strict=True)]
-    if any(t == 0.0 and ci != 0.0 and ui != 0.0 for t, ci, ui in zip(terms, c, u, strict=True)):
-        raise ComputationError("a sensitivity coefficient times its standard uncertainty underflows to zero; "
-                               "express the inputs in units that bring the numbers nearer 1")
-    if not all(math.isfinite(t) for t in terms):
-        raise ComputationError("a sensitivity coefficient times its standard uncertainty overflows; "
-                               "express the inputs in units that bring the numbers nearer 1")
-    scale = max((abs(t) for t in terms), default=0.0) or 1.0  # sums of squares of t/scale cannot overflow
-    first_s = sum((t / scale) ** 2 for t in terms)
-    cross_s = 0.0
-    for i in range(len(names)):
-        for j in range(i + 1, len(names)):
-            r = budget.correlation(names[i], names[j])
-            if r:
-                cross_s += 2.0 * (terms[i] / scale) * (terms[j] / scale) * r
-    second = 0.0
+    rows = evaluate_rows(budget, {x.name: x.value for x in q}, {x.name: x.standard_uncertainty for x in q},
+                         {x.name: x.dof for x in q}, 1)
+    if rows.errors:
+        raise ComputationError(rows.errors[0], subject="coverage" if "below 1" in rows.errors[0] else "")
+    y = float(rows.value[0])
+    uc = float(rows.standard_uncertainty[0])
+    nu = float(rows.effective_dof[0])
+    k = float(rows.coverage_factor[0])
+    cross, ratio = float(rows.correlation_variance[0]), float(rows.correlation_ratio[0])
+    pairs = correlation_pairs(budget, names)
     notes: list[str] = []
+    second = 0.0
     if second_order:
-        if any(budget.correlation(a, b) for a in names for b in names if a != b):
-            raise ComputationError("second-order terms (JCGM 100 5.1.2 note) need uncorrelated inputs",
-                                   subject="second_order")
-        second = _second_order(budget, names, env, u, c)
-    variance_s = first_s + cross_s + ((second / scale) / scale if second else 0.0)
-    if variance_s < 0:
-        if variance_s > -1e-12 * (first_s + 1e-300):
-            variance_s = 0.0
-        else:
-            raise ComputationError(f"combined variance is negative (relative {variance_s:.3g}); "
-                                   "check the correlations")
-    uc = scale * math.sqrt(variance_s)
-    cross = cross_s * scale * scale if cross_s else 0.0
-    nu = _effective_dof(first_s + cross_s, [t / scale for t in terms], [x.dof for x in q])
-    p = budget.coverage.probability
+        if pairs:
+            raise ComputationError("second-order terms (JCGM 100 5.1.2 note) need uncorrelated inputs; use "
+                                   "--method mc (JCGM 101) for this model", subject="second_order")
+        second = _second_order(budget, names, {x.name: x.value for x in q})
+        total = uc * uc + second if second < 0 else None
+        uc = math.sqrt(max(total, 0.0)) if total is not None else math.hypot(uc, math.sqrt(second))
+        if not math.isfinite(uc):
+            raise ComputationError("second-order terms overflow: the standard uncertainties are too large for "
+                                   "this model; use --method mc (JCGM 101)", subject="second_order")
+    terms = rows.terms[:, 0]
+    shares = variance_shares(terms, pairs)
     if uc == 0.0:
         notes.append("every input is exact or has zero sensitivity: the combined uncertainty is zero")
-    if budget.coverage.k is not None:
-        k, p_out = budget.coverage.k, None
-    else:
-        assert p is not None
-        nu_used = float(math.floor(nu)) if (budget.coverage.dof_rounding == "down" and not math.isinf(nu)) else nu
-        if nu_used < 1:
-            raise ComputationError(
-                f"effective degrees of freedom {nu:.3g} are below 1, so no coverage factor follows from the "
-                "probability; collect more data or state a fixed 'k' under 'coverage'", subject="coverage")
-        k, p_out = coverage_factor(p, nu_used), p
-    contributions = []
-    for x, ci, ui, t in zip(q, c, u, terms, strict=True):
-        contributions.append(Contribution(
-            input=x.name, value=x.value, unit=x.unit, standard_uncertainty=ui, dof=x.dof, sensitivity=ci,
-            contribution=abs(t), index=((t / scale) ** 2 / variance_s) if variance_s > 0 else 0.0, kind=x.kind,
-            shape=x.shape,
-        ))
+    contributions = [
+        Contribution(input=x.name, value=x.value, unit=x.unit, standard_uncertainty=x.standard_uncertainty,
+                     dof=x.dof, sensitivity=float(rows.sensitivities[i, 0]), contribution=abs(float(terms[i])),
+                     variance_share=float(shares[i]), kind=x.kind, shape=x.shape)
+        for i, x in enumerate(q)
+    ]
     contributions.sort(key=lambda row: (-row.contribution, row.input))
-    if cross_s and first_s:
-        change = "raise" if cross_s > 0 else "lower"
-        share = (first_s + cross_s) / first_s
-        notes.append(f"correlation terms {change} u_c^2 to {share:.0%} of the uncorrelated sum; effective dof"
-                     " by Welch-Satterthwaite over the uncorrelated terms, which is conservative where correlations "
-                     "cancel")
+    if cross:
+        change = "raise" if cross > 0 else "lower"
+        notes.append(f"correlation terms {change} u_c^2 to {ratio:.0%} of the uncorrelated sum; "
+                     "effective dof by the Welch-Satterthwaite formula generalised to correlated inputs "
+                     "(docs/budget-format.md), which gives correlated inputs estimated from the same data no more "
+                     "dof than that data has")
     if second:
-        notes.append(f"second-order terms add {(second / scale) / scale / variance_s:.1%} of u_c^2")
+        notes.append(f"second-order terms add {second / (uc * uc):.1%} of u_c^2")
     return GumResult(
         measurand=budget.measurand.symbol, unit=budget.measurand.unit, value=y, standard_uncertainty=uc,
-        effective_dof=nu, coverage_factor=k, coverage_probability=p_out, expanded_uncertainty=k * uc,
-        contributions=tuple(contributions), second_order=second_order, second_order_variance=second,
-        correlation_variance=cross, notes=tuple(n for n in notes if n),
+        effective_dof=nu, coverage_factor=k, coverage_probability=rows.coverage_probability,
+        expanded_uncertainty=k * uc, contributions=tuple(contributions), second_order=second_order,
+        second_order_variance=second, correlation_variance=cross, notes=tuple(notes),
     )
 
 
-def _effective_dof(variance: float, terms: list[float], dofs: list[float]) -> float:
-    """Welch-Satterthwaite: nu_eff = u_c^4 / sum (c_i u_i)^4 / nu_i (JCGM 100 G.4.1, eq. G.2b).
+def fourth_moment(budget: Budget, name: str) -> float:
+    """E[e^4] of an input's deviation: 3 u^4 + sum_k (kurtosis_k - 3) u_k^4 over its independent components
+    (fourth cumulants add for independent summands)."""
+    q = budget.quantities[name]
+    u = q.standard_uncertainty
+    excess = sum((KURTOSIS[c.distribution.shape] - 3.0) * c.standard_uncertainty ** 4 for c in q.components)
+    return 3.0 * u ** 4 + excess
 
-    Second-order terms are left out of u_c here: they carry no degrees of freedom of their own.
+
+def _second_order(budget: Budget, names: tuple[str, ...], env: dict[str, Any]) -> float:
+    """Second-order variance of JCGM 100 5.1.2 note, with each input's own fourth moment mu4_i:
+
+    sum_i [ (d2f/dxi2)^2 (mu4_i - u_i^4)/4 + df/dxi d3f/dxi3 mu4_i/3 ]
+    + sum_{i != j} [ (d2f/dxi dxj)^2 / 2 + df/dxi d3f/(dxi dxj^2) ] u_i^2 u_j^2,
+
+    from the variance of the third-order Taylor expansion for independent, symmetric inputs. For Gaussian inputs
+    (mu4 = 3 u^4) this is the note's formula; for a rectangular input it is not (y = x^2 at x = 0: the note gives
+    2 u^4, the exact variance is 4/5 u^4).
     """
-    denom = sum(t**4 / nu for t, nu in zip(terms, dofs, strict=True) if not math.isinf(nu) and t != 0.0)
-    if denom == 0.0 or variance <= 0.0:
-        return math.inf
-    return variance * variance / denom
-
-
-def _second_order(budget: Budget, names: tuple[str, ...], env: dict[str, Any], u: list[float],
-                  c: list[float]) -> float:
-    """sum_i sum_j [ (d2f/dxi dxj)^2 / 2 + df/dxi d3f/(dxi dxj^2) ] u_i^2 u_j^2 (JCGM 100 5.1.2 note)."""
     model = budget.model
+    u = {n: budget.quantities[n].standard_uncertainty for n in names}
+    c = {n: float(model.evaluate_tree(model.derivative(n), env)) for n in names}
     total = 0.0
-    for i, a in enumerate(names):
-        if u[i] == 0.0:
-            continue
-        for j, b in enumerate(names):
-            if u[j] == 0.0:
+    try:
+        for a in names:
+            if u[a] == 0.0:
                 continue
-            d2 = float(model.evaluate_tree(model.derivative(a, b), env))
-            d3 = float(model.evaluate_tree(model.derivative(a, b, b), env))
-            total += (0.5 * d2 * d2 + c[i] * d3) * u[i] ** 2 * u[j] ** 2
+            for b in names:
+                if u[b] == 0.0:
+                    continue
+                d2 = float(model.evaluate_tree(model.derivative(a, b), env))
+                d3 = float(model.evaluate_tree(model.derivative(a, b, b), env))
+                if a == b:
+                    mu4 = fourth_moment(budget, a)
+                    total += 0.25 * d2 * d2 * (mu4 - u[a] ** 4) + c[a] * d3 * mu4 / 3.0
+                else:
+                    total += (0.5 * d2 * d2 + c[a] * d3) * u[a] ** 2 * u[b] ** 2
+    except (OverflowError, ZeroDivisionError, ValueError):
+        total = math.inf
     if not math.isfinite(total):
-        raise ComputationError("second-order terms are not finite at the estimates", subject="second_order")
+        raise ComputationError("second-order terms are not finite (they overflow at these standard uncertainties); "
+                               "use --method mc (JCGM 101) for this model", subject="second_order")
     return total

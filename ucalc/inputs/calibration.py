@@ -163,8 +163,8 @@ def _clip(r: float) -> float:
 
 def _derive(name: str, spec: Spec, location: Location) -> Derived:
     import numpy as np
-    from scipy import stats
 
+    from ..engines.gum import coverage_factor
     from .calibration_checks import diagnose
     from .calibration_fit import predict
 
@@ -192,7 +192,7 @@ def _derive(name: str, spec: Spec, location: Location) -> Derived:
         + f", residual s = {s:.4g}, dof {int(dof)}",
     ]
     warnings: list[str] = []
-    if abs(b) < float(stats.t.ppf(0.975, dof)) * u_coef["slope"]:
+    if abs(b) < coverage_factor(0.95, dof) * u_coef["slope"]:
         warnings.append("the calibration slope does not differ significantly from zero")
     checks = diagnose(f, cs.standards, cs.response_lists())
     warnings.extend(checks.warnings)
@@ -387,3 +387,16 @@ def predict_many(spec: CalibrationSpec, responses: Any, readings: int | None = N
     with np.errstate(invalid="ignore"):
         outside = x0 > span[1]
     return x0, u, float(f.dof), outside
+
+
+def rows(name: str, raw: dict[str, Any], responses: Any) -> tuple[Any, Any, Any, dict[int, str]]:
+    """Per-row (x0, u(x0), dof, errors) for samples' mean responses (batch rows); a sample above the calibrated
+    range has no result for its row."""
+    import numpy as np
+
+    spec = Spec.model_validate(raw)
+    x0, u, dof, outside = predict_many(spec.calibration, responses)
+    lo, hi = min(spec.calibration.standards), max(spec.calibration.standards)
+    errors = {int(i): f"'{name}': the sample (x0 = {x0[i]:.4g}) lies outside the calibrated range [{lo:g}, {hi:g}]"
+              for i in np.flatnonzero(outside)}
+    return x0, u, np.full(np.shape(x0), dof), errors

@@ -39,7 +39,7 @@ class Spec(InputSpec):
 
 def assess(spec: RecoverySpec) -> dict[str, float | bool]:
     """R, u(R), its dof, the t statistic, the critical t and whether R differs significantly from 1."""
-    from scipy import stats
+    from ..engines.gum import coverage_factor
 
     ref = spec.reference
     if ref.value <= 0:
@@ -57,8 +57,7 @@ def assess(spec: RecoverySpec) -> dict[str, float | bool]:
         raise ValueError("u(R) is zero: the found values are identical and the reference has no uncertainty")
     dof = welch_satterthwaite([(rel_found, n - 1.0), (rel_ref, ref.dof or math.inf)])
     t = abs(1.0 - recovery) / u
-    t_crit = float(stats.t.ppf(0.5 + spec.probability / 2, dof)) if math.isfinite(dof) else float(
-        stats.norm.ppf(0.5 + spec.probability / 2))
+    t_crit = coverage_factor(spec.probability, dof)
     return {"mean": mean, "s": s, "n": n, "R": recovery, "u": u, "dof": dof, "t": t, "t_crit": t_crit,
             "significant": t > t_crit, "u_ref": u_ref}
 

@@ -45,7 +45,7 @@ def contribution_chart(gum: GumResult, unit: str, most: int = 12) -> str:
     bars = ax.barh([r.input for r in rows], values, color="#b8c4d6", edgecolor="black", hatch="///",
                    linewidth=0.6)
     for bar, row in zip(bars, rows, strict=True):
-        ax.text(bar.get_width(), bar.get_y() + bar.get_height() / 2, f"  {100 * row.index:.1f} %", va="center",
+        ax.text(bar.get_width(), bar.get_y() + bar.get_height() / 2, f"  {100 * row.variance_share:.1f} %", va="center",
                 fontsize=8)
     ax.set_xlabel("contribution |c_i|·u(x_i)" + (f" / {unit}" if unit else ""))
     ax.set_xlim(0, max(values) * 1.3 if max(values) > 0 else 1)

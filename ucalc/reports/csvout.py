@@ -17,5 +17,5 @@ def budget_table(result: GumResult) -> str:
     writer.writerow(COLUMNS)
     for r in result.contributions:
         writer.writerow([r.input, repr(r.value), r.unit, repr(r.standard_uncertainty), r.kind, r.shape, repr(r.dof),
-                         repr(r.sensitivity), repr(r.contribution), repr(r.index)])
+                         repr(r.sensitivity), repr(r.contribution), repr(r.variance_share)])
     return buffer.getvalue()

@@ -55,7 +55,8 @@ def build(budget: Budget, gum: GumResult, mc: MonteCarloResult | None = None, *,
                for name, (model, lines) in budget.working.items() if lines]
     rows = [{"input": r.input, "value": num(r.value, 8), "unit": pretty_unit(r.unit),
              "u": num(r.standard_uncertainty, 3), "type": r.kind, "distribution": r.shape, "dof": dof_text(r.dof),
-             "c": num(r.sensitivity, 4), "contribution": num(r.contribution, 3), "index": f"{100 * r.index:.1f}"}
+             "c": num(r.sensitivity, 4), "contribution": num(r.contribution, 3),
+             "index": f"{100 * r.variance_share:.1f}"}
             for r in gum.contributions]
     from ..statement import sentence, state
 

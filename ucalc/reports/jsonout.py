@@ -105,7 +105,8 @@ def gum_json(budget: Budget, result: GumResult) -> dict[str, Any]:
         "second_order": result.second_order,
         "contributions": [
             {"input": c.input, "value": c.value, "unit": c.unit, "standard_uncertainty": c.standard_uncertainty,
-             "dof": _dof(c.dof), "sensitivity": c.sensitivity, "contribution": c.contribution, "index": c.index}
+             "dof": _dof(c.dof), "sensitivity": c.sensitivity, "contribution": c.contribution,
+             "variance_share": c.variance_share}
             for c in result.contributions
         ],
         "inputs": {name: quantity_json(q) for name, q in budget.quantities.items()},

@@ -88,7 +88,7 @@ def render_gum(console: Console, budget: Budget, result: GumResult, show_result:
         kind = row.kind if row.kind == "exact" else f"{row.kind} {SHAPES.get(row.shape, row.shape)}"
         table.add_row(row.input, num(row.value, 7), _unit(row.unit), num(row.standard_uncertainty, 3), kind,
                       dof_text(row.dof), num(row.sensitivity, 4), num(row.contribution, 3),
-                      f"{100 * row.index:.1f}")
+                      f"{100 * row.variance_share:.1f}")
     console.print(table)
     console.print(f"u_c = {num(result.standard_uncertainty, 3)}{' ' + mu if mu else ''}, effective dof "
                   f"{dof_text(result.effective_dof)}" + (", second-order terms included" if result.second_order
