@@ -210,7 +210,8 @@ def test_run_does_not_import_scipy_stats(tmp_path) -> None:
 
     for budget in sorted(BUDGETS.glob("*.yaml")):
         code = ("import sys\nfrom ucalc.cli import app\nsys.argv = ['ucalc', 'run', sys.argv[1]]\n"
-                "try:\n    app()\nexcept SystemExit:\n    pass\nprint('STATS' if 'scipy.stats' in sys.modules else 'NO')")
+                "try:\n    app()\nexcept SystemExit:\n    pass\n"
+                "print('STATS' if 'scipy.stats' in sys.modules else 'NO')")
         done = subprocess.run([sys.executable, "-c", code, str(budget)], capture_output=True, text=True, check=False)
         assert done.stdout.strip().splitlines()[-1] == "NO", (budget.name, done.stderr[-500:])
 

@@ -84,7 +84,7 @@ def single_material(results: Sequence[float] | None, mean: float | None, s: floa
 
 def _several(biases: Sequence[float], u_refs: Sequence[float], label: str, source: str,
              relative: bool) -> BiasEstimate:
-    from scipy import stats
+    from ..engines.gum import coverage_factor
 
     n = len(biases)
     _require(n >= 2, f"give at least 2 {label} (got {n})")
@@ -93,7 +93,7 @@ def _several(biases: Sequence[float], u_refs: Sequence[float], label: str, sourc
     mean_b, s_b = statistics.fmean(biases), statistics.stdev(biases)
     u_mean = s_b / math.sqrt(n)
     t = abs(mean_b) / u_mean if u_mean > 0 else math.inf
-    t_crit = float(stats.t.ppf(0.975, n - 1))
+    t_crit = coverage_factor(0.95, n - 1)  # two-sided 95 % t quantile, t(0.975, n - 1)
     significant = t > t_crit
     u_bias = math.hypot(rms, u_ref)
     rel = " (relative)" if relative else ""
