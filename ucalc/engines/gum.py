@@ -166,7 +166,8 @@ def combine(terms: Any, dofs: Any, pairs: list[tuple[int, int, float]]) -> tuple
     for i, j, r in pairs:
         cross = cross + 2.0 * r * s[i] * s[j]
     variance = first + cross
-    nu = effective_dof(s, np.broadcast_to(np.asarray(dofs, dtype=float).reshape(m, -1), (m, n)), pairs, variance)
+    nu = effective_dof(s, np.broadcast_to(np.asarray(dofs, dtype=float).reshape(m, -1 if m else 1), (m, n)), pairs,
+                       variance)
     with np.errstate(over="ignore"):
         return scale * np.sqrt(np.clip(variance, 0.0, None)), nu, first, cross, scale
 
@@ -215,6 +216,8 @@ def _single_term(s: Any, dofs: Any) -> Any:
     """nu_i itself where only input i has a non-zero term (exact; avoids rounding in t^4/t^4), NaN elsewhere."""
     import numpy as np
 
+    if s.shape[0] == 0:
+        return np.full(s.shape[1], np.nan)
     live = s != 0.0
     only = np.sum(live, axis=0) == 1
     first = np.argmax(live, axis=0)
@@ -234,8 +237,11 @@ def evaluate_rows(budget: Budget, env: dict[str, Any], u: dict[str, Any], dof: d
         c = np.empty((len(names), n))
         for i, name in enumerate(names):
             c[i] = np.asarray(model.evaluate_tree(model.derivative(name), full, "numpy"), dtype=float)
-        uu = np.array([np.broadcast_to(np.asarray(u[name], dtype=float), (n,)) for name in names]).reshape(-1, n)
-        dd = np.array([np.broadcast_to(np.asarray(dof[name], dtype=float), (n,)) for name in names]).reshape(-1, n)
+        uu = np.empty((len(names), n))
+        dd = np.empty((len(names), n))
+        for i, name in enumerate(names):
+            uu[i] = np.asarray(u[name], dtype=float)
+            dd[i] = np.asarray(dof[name], dtype=float)
         terms = c * uu
     errors: dict[int, str] = {}
     bad_terms = ~np.isfinite(terms)
