@@ -15,11 +15,11 @@ from hypothesis import strategies as st
 from scipy import linalg, stats
 from typer.testing import CliRunner
 
-from ucalc.batch import BatchOptions, run_batch
 from ucalc.budget.load import load_budget_text
 from ucalc.cli import app
 from ucalc.engines.gum import coverage_factors, propagate
 from ucalc.errors import ComputationError
+from ucalc.samples.table import BatchOptions, run_batch
 from ucalc.workflow import load_with_settings
 
 runner = CliRunner()

@@ -42,19 +42,19 @@ class DetectionLimits:
 
 def delta(nu: float, alpha: float = 0.05, beta: float = 0.05) -> float:
     """The non-centrality delta with P(T'(nu, delta) <= t(1 - alpha, nu)) = beta (ISO 11843-2 5.3 note)."""
-    from scipy import optimize, stats
+    from scipy import optimize, special
 
     if math.isinf(nu):
-        return float(stats.norm.ppf(1 - alpha) + stats.norm.ppf(1 - beta))
-    t_crit = float(stats.t.ppf(1 - alpha, nu))
-    guess = t_crit + float(stats.t.ppf(1 - beta, nu))
-    return float(optimize.brentq(lambda d: stats.nct.cdf(t_crit, nu, d) - beta, 0.0, 4 * guess + 10))
+        return float(special.ndtri(1 - alpha) + special.ndtri(1 - beta))
+    t_crit = float(special.stdtrit(nu, 1 - alpha))
+    guess = t_crit + float(special.stdtrit(nu, 1 - beta))
+    return float(optimize.brentq(lambda d: special.nctdtr(nu, d, t_crit) - beta, 0.0, 4 * guess + 10))
 
 
 def _t(nu: float, alpha: float) -> float:
-    from scipy import stats
+    from scipy import special  # quantiles from scipy.special: `ucalc run` does not import scipy.stats
 
-    return float(stats.norm.ppf(1 - alpha) if math.isinf(nu) else stats.t.ppf(1 - alpha, nu))
+    return float(special.ndtri(1 - alpha) if math.isinf(nu) else special.stdtrit(nu, 1 - alpha))
 
 
 def from_blanks(blanks: Sequence[float], method: str = "common", replicates: int = 1, blank_corrected: bool = True,
