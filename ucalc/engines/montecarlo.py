@@ -531,7 +531,7 @@ def departures(budget: Budget, gum: GumResult) -> tuple[str, ...]:
     Inputs with at least 5 % of u_c^2 whose distribution is far from Gaussian (a t with few dof, rectangular,
     arcsine, trapezoidal), and inputs whose curvature term (1/2)|d2f/dx2| u^2 exceeds 2 % of u_c.
     """
-    shares = {c.input: c.index for c in gum.contributions}
+    shares = {c.input: c.variance_share for c in gum.contributions}
     out: list[str] = []
     for name in budget.model.inputs:
         q = budget.quantities[name]
