@@ -210,7 +210,7 @@ def test_the_python_interface_names_its_parameters(write_budget: Any) -> None:
         budget.propagate(second_order=True)
     assert info.value.subject == "second_order"
     assert str(info.value).endswith("c.yaml: second_order: second-order terms (JCGM 100 5.1.2 note) need "
-                                    "uncorrelated inputs")
+                                    "uncorrelated inputs; use --method mc (JCGM 101) for this model")
     import pandas as pd
 
     with pytest.raises(OptionError) as option:
