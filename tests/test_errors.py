@@ -196,7 +196,7 @@ def test_the_command_line_names_its_options(write_budget: Any) -> None:
     result = runner.invoke(app, ["run", str(path), "--second-order"])
     assert result.exit_code == 2
     assert result.stderr == (f"{path}: --second-order: second-order terms (JCGM 100 5.1.2 note) need uncorrelated "
-                             "inputs\n")
+                             "inputs; use --method mc (JCGM 101) for this model\n")
     result = runner.invoke(app, ["improve", str(path), "--target", "5x"])
     assert (result.exit_code, result.stderr) == (2, "--target: '5x' is not a number or a percentage such as 5%\n")
 
