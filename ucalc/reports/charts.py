@@ -88,3 +88,20 @@ def distribution_chart(gum: GumResult, mc: MonteCarloResult, unit: str) -> str:
     ax.legend(fontsize=7, frameon=False, loc="upper right")
     ax.set_title(f"Output distribution, {mc.trials:,} trials", fontsize=10, loc="left")
     return _svg(plt, fig)
+
+
+def residual_chart(residuals: list[dict[str, float]], s: float, unit: str, response_unit: str) -> str:
+    """Residuals of a calibration function against the standards, with the zero line and ±2 s (ISO 8466-1)."""
+    plt, fig, ax = _figure(2.4)
+    xs = [r["x"] for r in residuals]
+    es = [r["residual"] for r in residuals]
+    ax.axhline(0.0, color="black", linewidth=0.8)
+    for level in (2 * s, -2 * s):
+        ax.axhline(level, color="black", linewidth=0.8, linestyle="--")
+    ax.plot(xs, es, linestyle="none", marker="o", markerfacecolor="white", markeredgecolor="black",
+            label="residual y − f(x)")
+    ax.plot([], [], color="black", linewidth=0.8, linestyle="--", label="±2 s")
+    ax.set_xlabel("standard" + (f" / {unit}" if unit else ""))
+    ax.set_ylabel("residual" + (f" / {response_unit}" if response_unit else ""))
+    ax.legend(frameon=False, fontsize=8)
+    return _svg(plt, fig)

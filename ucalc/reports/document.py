@@ -102,6 +102,10 @@ def build(budget: Budget, gum: GumResult, mc: MonteCarloResult | None = None, *,
                 }[v.verdict], "causes": list(v.causes),
                 "gum_interval": f"[{num(v.gum_interval[0], 8)}, {num(v.gum_interval[1], 8)}]"},
         }
+    data["correlations"] = [{"a": a, "b": b, "r": f"{r:.4f}", "origin": budget.correlation_origins.get((a, b), "")}
+                            for (a, b), r in sorted(budget.correlations.items())
+                            if r and a in budget.model.inputs and b in budget.model.inputs]
+    data["calibrations"] = calibration_sections(budget, charts)
     if charts:
         from . import charts as drawing
 
@@ -110,3 +114,35 @@ def build(budget: Budget, gum: GumResult, mc: MonteCarloResult | None = None, *,
         if mc is not None:
             data["charts"]["distribution"] = drawing.distribution_chart(gum, mc, mu)
     return data
+
+
+def calibration_sections(budget: Budget, charts: bool) -> list[dict[str, Any]]:
+    """ISO 8466-1 diagnostics of each calibration input: test outcomes, residuals and their plot."""
+    out = []
+    for name, d in budget.details.items():
+        if d.get("model") != "calibration":
+            continue
+        diag = d["diagnostics"]
+        lines = []
+        m, h = diag.get("mandel"), diag.get("homoscedasticity")
+        if m:
+            verdict = "linear" if m["passed"] else "the second-order fit is significantly better"
+            lines.append(f"Mandel test: PG = {num(m['pg'], 3)}, F(1, {m['dof2']:.0f}; 99 %) = "
+                         f"{num(m['f_critical'], 3)}: {verdict}")
+        if h:
+            verdict = "variances compatible" if h["passed"] else "variances differ"
+            lines.append(f"homoscedasticity (ends of the range): s = {num(h['s_low'], 3)} and {num(h['s_high'], 3)}, "
+                         f"PG = {num(h['pg'], 3)}, F({h['dof1']:.0f}, {h['dof2']:.0f}; 99 %) = "
+                         f"{num(h['f_critical'], 3)}: {verdict}")
+        lines.extend(diag.get("notes", []))
+        residuals = [{"x": num(r["x"], 6), "y": num(r["y"], 6), "residual": num(r["residual"], 3)}
+                     for r in diag["residuals"]]
+        chart = ""
+        if charts:
+            from .charts import residual_chart
+
+            chart = residual_chart(diag["residuals"], d["residual_sd"], pretty_unit(d["unit"]),
+                                   pretty_unit(d["response_unit"]))
+        out.append({"name": name, "lines": lines, "residuals": residuals, "chart": chart,
+                    "function": d["function"]})
+    return out
