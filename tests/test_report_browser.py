@@ -14,6 +14,7 @@ import shutil
 import pytest
 from typer.testing import CliRunner
 
+from ucalc.budget.load import load_budget
 from ucalc.cli import app
 
 from .conftest import BUDGETS
@@ -105,7 +106,8 @@ def test_every_example_report_renders_cleanly(tmp_path) -> None:
             page.goto(out.as_uri())
             assert problems == [], budget.name
             charts = page.locator("figure svg")
-            assert charts.count() == 2, budget.name
+            residual_plots = sum(1 for d in load_budget(budget).details.values() if d.get("model") == "calibration")
+            assert charts.count() == 2 + residual_plots, budget.name  # contributions, distribution, residuals
             assert all(charts.nth(i).is_visible() for i in range(charts.count()))
             page.emulate_media(media="print")
             page.set_viewport_size({"width": 703, "height": 1000})
