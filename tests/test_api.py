@@ -112,7 +112,7 @@ def test_results_display_as_tables_in_notebooks() -> None:
     result = ucalc.Budget.from_dict(diluted()).propagate()
     html = result._repr_html_()
     # U = 2.33 rounds to 2.3 and y to the same place (JCGM 100 7.2.6)
-    assert html.startswith("<p>GUM (JCGM 100): c = 25.0 ug/L, U = 2.3 ug/L (k = 2.23, coverage probability 95 %)")
+    assert html.startswith("<p>GUM (JCGM 100): c = 25.0 ug/L, U = 2.3 ug/L (k = 2.23, coverage probability about 95 %)")
     assert html.count("<tr>") == 1 + 2 + 1  # heading, two inputs, the result row
 
 

@@ -1,8 +1,10 @@
-"""The HTML report in a real browser: headless Chromium (Debian's package, installed by .ci/run).
+"""The HTML report in a real browser: headless Chromium (Debian's package, installed by .ci/run), and the PDF
+report's pages as images (pdftoppm from Debian's poppler-utils).
 
 Checks that the page loads without console errors, that every chart is visible and not blank, that the print
-layout fits the printable width of A4 and Letter, and that the printed PDF has the expected number of pages.
-Skips, saying why, only where Chromium is absent outside CI.
+layout fits the printable width of A4 and Letter, that the printed PDF has the expected number of pages, each with
+its running header and "page X of Y" footer, and that every page of every example's PDF report carries them and
+is drawn (not blank). Skips, saying why, only where Chromium or pdftoppm is absent outside CI.
 """
 
 from __future__ import annotations
@@ -10,6 +12,7 @@ from __future__ import annotations
 import io
 import os
 import shutil
+import subprocess
 
 import pytest
 from typer.testing import CliRunner
@@ -23,7 +26,8 @@ CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
 ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking", "--disable-component-update",
         "--disable-sync", "--no-first-run", "--disable-quic"]
 # pages of the stock-standard report (GUM + Monte Carlo) when printed; pinned from the layout  # common practice
-EXPECTED_PAGES = {"A4": 2, "Letter": 3}
+EXPECTED_PAGES = {"A4": 3, "Letter": 3}
+PDFTOPPM = shutil.which("pdftoppm")
 
 
 def _require_browser():  # type: ignore[no-untyped-def]
@@ -90,7 +94,12 @@ def test_report_in_headless_chromium(report_file) -> None:
 
         for paper, pages in EXPECTED_PAGES.items():
             pdf = page.pdf(format=paper, print_background=True, prefer_css_page_size=False)
-            assert len(PdfReader(io.BytesIO(pdf)).pages) == pages, paper
+            reader = PdfReader(io.BytesIO(pdf))
+            assert len(reader.pages) == pages, paper
+            for number, printed in enumerate(reader.pages, start=1):
+                text = printed.extract_text()
+                assert f"page {number} of {pages}" in text, (paper, number)  # the running footer
+                assert "UB-SP02-Cd version 2" in text, (paper, number)  # the running header
         browser.close()
 
 
@@ -116,3 +125,40 @@ def test_every_example_report_renders_cleanly(tmp_path) -> None:
             page.emulate_media(media="screen")
             page.set_viewport_size({"width": 1000, "height": 1400})
         browser.close()
+
+
+def _require_pdftoppm() -> str:
+    if PDFTOPPM:
+        return PDFTOPPM
+    reason = "pdftoppm (Debian package 'poppler-utils') is not installed"
+    if os.environ.get("CI"):
+        pytest.fail(f"{reason}, but CI must run this test")
+    pytest.skip(reason)
+
+
+@pytest.mark.slow
+def test_every_example_pdf_report_has_numbered_drawn_pages(tmp_path) -> None:
+    from PIL import Image, ImageStat
+    from pypdf import PdfReader
+
+    pytest.importorskip("weasyprint", reason="the 'pdf' extra is not installed", exc_type=ImportError)
+    pdftoppm = _require_pdftoppm()
+    for budget in sorted(BUDGETS.glob("*.yaml")):
+        out = _write_report(budget, tmp_path / f"{budget.stem}.pdf")
+        assert out.read_bytes().startswith(b"%PDF-"), budget.name
+        reader = PdfReader(out)
+        pages = len(reader.pages)
+        assert 2 <= pages <= 6, (budget.name, pages)
+        title_start = reader.pages[0].extract_text().split("\n")[0][:20]
+        for number, printed in enumerate(reader.pages, start=1):
+            text = printed.extract_text()
+            assert f"page {number} of {pages}" in text, (budget.name, number)
+            assert title_start in text, (budget.name, number)  # running header on every page
+        subprocess.run([pdftoppm, "-png", "-r", "40", str(out), str(tmp_path / budget.stem)], check=True,
+                       timeout=120)
+        images = sorted(tmp_path.glob(f"{budget.stem}-*.png"))
+        assert len(images) == pages, budget.name
+        for image_path in images:
+            image = Image.open(image_path).convert("L")
+            assert image.width < image.height  # portrait pages
+            assert ImageStat.Stat(image).stddev[0] > 10, (image_path.name, "blank page")

@@ -28,7 +28,7 @@ STOCK = BUDGETS / "stock-standard.yaml"
         (("c", 9.8421, "µg/L", 0.6234, 2.0, 0.95),
          "c = (9.84 ± 0.62) µg/L, k = 2.00, coverage probability about 95 %; relative U = 6.3 %"),
         (("c", 9.8421, "µg/L", 0.0995, 2.0, 0.95),
-         "c = (9.84 ± 0.10) µg/L, k = 2.00, coverage probability about 95 %; relative U = 1 %"),
+         "c = (9.84 ± 0.10) µg/L, k = 2.00, coverage probability about 95 %; relative U = 1.0 %"),
         (("c", 123.4, "mg/L", 9.96, 2.0, None),
          "c = (123 ± 10) mg/L, k = 2.00 (about 95 % for a normal distribution); relative U = 8.1 %"),
         (("x", 0.5, "", 0.0123, 2.57, 0.95),
@@ -120,3 +120,76 @@ def test_every_example_budget_reports(tmp_path) -> None:
         out = tmp_path / f"{budget.stem}.html"
         r = runner.invoke(app, ["report", str(budget), "-o", str(out), "--seed", "1", "-n", "5000"])
         assert r.exit_code == 0, (budget.name, r.output)
+
+
+def test_pdf_report_is_a_pdf_with_page_numbers(tmp_path) -> None:
+    from pypdf import PdfReader
+
+    pytest.importorskip("weasyprint", reason="the 'pdf' extra is not installed", exc_type=ImportError)
+    out = tmp_path / "stock.pdf"
+    r = runner.invoke(app, ["report", str(STOCK), "-o", str(out), "-m", "gum"])
+    assert r.exit_code == 0, r.output
+    reader = PdfReader(out)
+    pages = len(reader.pages)
+    text = reader.pages[0].extract_text()
+    assert f"page 1 of {pages}" in text and "UB-SP02-Cd" in text and "Reviewed by" in text
+
+
+def test_pdf_without_its_extra_says_how_to_get_it(tmp_path, monkeypatch) -> None:
+    import sys
+
+    monkeypatch.setitem(sys.modules, "weasyprint", None)  # as if the 'pdf' extra were not installed
+    out = tmp_path / "stock.pdf"
+    r = runner.invoke(app, ["report", str(STOCK), "-o", str(out), "-m", "gum"])
+    assert r.exit_code == 2 and 'pip install "ucalc[pdf]"' in r.stderr
+    assert not out.exists()
+
+
+@pytest.mark.parametrize(("name", "extra", "message"), [
+    ("r.txt", [], "extension '.txt' is not a report format; name the file .html, .pdf or .md"),
+    ("report", [], "no extension is not a report format"),
+    ("r.pdf", ["-f", "md"], "the extension '.pdf' says pdf, but --format says md"),
+])
+def test_unknown_or_contradicting_extension_is_refused(tmp_path, name, extra, message) -> None:
+    r = runner.invoke(app, ["report", str(STOCK), "-o", str(tmp_path / name), "-m", "gum", *extra])
+    assert r.exit_code == 2 and message in r.stderr
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_report_output_checked_before_the_work(tmp_path) -> None:
+    r = runner.invoke(app, ["report", str(STOCK), "-o", str(tmp_path / "no" / "r.html")])
+    assert r.exit_code == 2 and "folder" in r.stderr and "does not exist; create it first" in r.stderr
+    r = runner.invoke(app, ["report", str(STOCK), "-o", str(STOCK)])  # the budget itself, without --force
+    assert r.exit_code == 2 and "is an input of this command" in r.stderr
+
+
+def test_report_accepts_set_and_says_so(tmp_path) -> None:
+    out = tmp_path / "r.md"
+    r = runner.invoke(app, ["report", str(STOCK), "-o", str(out), "-m", "gum", "--set", "m.value=100.5"])
+    assert r.exit_code == 0, r.output
+    md = out.read_text(encoding="utf-8")
+    assert "Scenario, not the budget as written" in md and "m.value=100.5" in md
+
+
+def test_document_control_fields(write_budget, tmp_path) -> None:
+    path = write_budget("ucalc: 1\ntitle: t\ndocument:\n  method: M-1 <b>x</b>\n  id: UB-1\n  version: 4\n"
+                        "  prepared: {by: analyst, date: 2026-01-05}\n  approved: {by: quality manager}\n"
+                        "measurand: {symbol: y, unit: mg/L}\nmodel: 'y = x'\n"
+                        "inputs:\n  x: {value: 1, unit: mg/L, components: [{name: s, standard: 0.1}]}\n")
+    out = tmp_path / "r.html"
+    assert runner.invoke(app, ["report", str(path), "-o", str(out), "-m", "gum"]).exit_code == 0
+    html = out.read_text(encoding="utf-8")
+    assert "UB-1, version 4" in html and "M-1 &lt;b&gt;x&lt;/b&gt;" in html
+    assert "<td>Prepared by</td><td>analyst</td><td>2026-01-05</td>" in html
+    assert "<td>Approved by</td><td>quality manager</td><td></td>" in html
+    bad = write_budget("ucalc: 1\ntitle: t\ndocument: {prepared: {by: a, date: 2026-02-30}}\n"
+                       "measurand: {symbol: y}\nmodel: 'y = x'\ninputs:\n  x: {value: 1}\n", "bad.yaml")
+    r = runner.invoke(app, ["check", str(bad)])
+    assert r.exit_code == 2 and "write dates YYYY-MM-DD" in r.stderr and "Traceback" not in r.output
+
+
+def test_help_names_option_types_in_words() -> None:
+    for command in ("run", "report", "improve", "batch"):
+        text = runner.invoke(app, [command, "--help"], env={"COLUMNS": "120"}).stdout
+        assert "<bool>" not in text and "list[str]" not in text and "<int" not in text, command
+    assert "integer" in runner.invoke(app, ["run", "--help"], env={"COLUMNS": "120"}).stdout

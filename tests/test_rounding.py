@@ -38,5 +38,5 @@ def test_rounding_table(y: float, U: float, digits: int, y_text: str, u_text: st
 
 def test_result_line_wording() -> None:
     line = result_line("c_std", 1002.6997, "mg/L", 1.6387, 1.9608, 0.95)
-    assert line == "c_std = 1002.7 mg/L, U = 1.6 mg/L (k = 1.96, coverage probability 95 %)"
+    assert line == "c_std = 1002.7 mg/L, U = 1.6 mg/L (k = 1.96, coverage probability about 95 %)"
     assert result_line("x", 1.5, "", 0.12, 2.0, None) == "x = 1.50, U = 0.12 (k = 2.00)"

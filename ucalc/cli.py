@@ -22,6 +22,28 @@ from .errors import BudgetErrors, UcalcError
 if TYPE_CHECKING:
     from rich.console import Console
 
+# option types named in words in --help (the library's own labels are Python types such as <list[str]>)
+TYPE_WORDS = {"bool": "", "int range": "integer", "int": "integer", "float": "number", "float range": "number",
+              "path": "file", "list[str]": "text", "str": "text"}
+
+
+def _typed_in_words(params: list, ctx: object) -> list:  # type: ignore[type-arg]
+    for param in params:
+        label = param.display_type(ctx) if hasattr(param, "display_type") else None
+        if label:
+            plain = label.strip("<>")
+            words = TYPE_WORDS.get(plain, plain.replace("|", ", "))
+            param.display_type_rich = lambda ctx, words=words: words or None
+    return params
+
+
+class _Command(typer.core.TyperCommand):
+    """A command whose help names each option's type in words."""
+
+    def get_params(self, ctx):  # type: ignore[no-untyped-def]
+        return _typed_in_words(super().get_params(ctx), ctx)
+
+
 class _Commands(TyperGroup):
     """The command group; its one error handler prints ucalc's errors as lines on stderr and exits with code 2."""
 
@@ -32,6 +54,9 @@ class _Commands(TyperGroup):
             for line in error_lines(exc):
                 typer.echo(line, err=True)
             raise typer.Exit(EXIT_BAD_INPUT) from None
+
+    def get_params(self, ctx):  # type: ignore[no-untyped-def]
+        return _typed_in_words(super().get_params(ctx), ctx)
 
 
 app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_enable=False, rich_markup_mode=None,
@@ -68,9 +93,11 @@ class Format(StrEnum):
 class ReportFormat(StrEnum):
     html = "html"
     md = "md"
+    pdf = "pdf"
 
 
-BudgetArg = Annotated[Path, typer.Argument(help="budget file (YAML, format version 1)", show_default=False)]
+BudgetArg = Annotated[Path, typer.Argument(help="budget file (YAML, format version 1)", show_default=False,
+                                           metavar="BUDGET")]
 
 
 # parameters named in errors (their Python names) -> the options that set them on the command line
@@ -92,7 +119,7 @@ def error_lines(exc: UcalcError) -> list[str]:
     return [str(exc)]
 
 
-@app.command()
+@app.command(cls=_Command)
 def check(budget: BudgetArg) -> None:
     """Validate a budget; list every problem as FILE:LINE:COL and exit 2 if there is any."""
     from .workflow import check_budget
@@ -100,7 +127,8 @@ def check(budget: BudgetArg) -> None:
     b = check_budget(budget)
     for warning in b.warnings:
         typer.echo(f"{budget}: warning: {warning}", err=True)
-    typer.echo(f"{budget}: ok ({len(b.model.inputs)} inputs, {len(b.model.lines)} model lines)")
+    inputs, lines = len(b.model.inputs), len(b.model.lines)
+    typer.echo(f"{budget}: ok ({inputs} input{'s' * (inputs != 1)}, {lines} model line{'s' * (lines != 1)})")
 
 
 class Method(StrEnum):
@@ -109,7 +137,7 @@ class Method(StrEnum):
     both = "both"
 
 
-@app.command()
+@app.command(cls=_Command)
 def run(
     budget: BudgetArg,
     format: Annotated[Format, typer.Option("--format", "-f", help="output format")] = Format.text,
@@ -162,31 +190,34 @@ def run(
         render_limits(console, result.budget.limits, result.budget.measurand.unit)
 
 
-@app.command("report")
+@app.command("report", cls=_Command)
 def report_command(
     budget: BudgetArg,
-    output: Annotated[Path, typer.Option("--output", "-o", help="report file to write", show_default=False)],
+    output: Annotated[Path, typer.Option("--output", "-o", help="report file to write: .html, .md or .pdf",
+                                         show_default=False)],
     format: Annotated[ReportFormat | None, typer.Option("--format", "-f",
-                                                        help="html or md (default: from the file name)")] = None,
+                                                        help="html, md or pdf (default: from the file name)")] = None,
     method: Annotated[Method, typer.Option("--method", "-m", help="GUM, Monte Carlo, or both")] = Method.both,
     trials: Annotated[int, typer.Option("--trials", "-n", min=100, help="Monte Carlo trials")] = 1_000_000,
     seed: Annotated[int | None, typer.Option("--seed", min=0, help="Monte Carlo seed (default: fresh, reported)")]
     = None,
     digits: Annotated[int, typer.Option("--digits", min=1, max=4, help="significant digits of U")] = 2,
+    set_: Annotated[list[str] | None, typer.Option("--set", help="report a changed budget, INPUT.FIELD=VALUE "
+                                                   "(repeatable; the report says so)")] = None,
     force: Annotated[bool, typer.Option("--force", help="replace an existing output file")] = False,
 ) -> None:
-    """Write a self-contained HTML (or Markdown) report of a budget for the accreditation file."""
+    """Write a self-contained HTML, PDF or Markdown report of a budget for the accreditation file."""
     from .workflow import MonteCarloOptions, report
 
-    fmt = format.value if format else ("md" if output.suffix.lower() in (".md", ".markdown") else "html")
     options = MonteCarloOptions(trials=trials, seed=seed)
+    fmt = format.value if format else None
     with _progress(method is not Method.gum and trials >= 2_000_000) as progress:
-        written = report(budget, output, fmt="md" if fmt == "md" else "html", method=method.value, mc=options,
-                         force=force, digits=digits, progress=progress)
+        written = report(budget, output, fmt=fmt, method=method.value, mc=options, force=force, digits=digits,
+                         progress=progress, settings=set_)
     typer.echo(f"wrote {written}")
 
 
-@app.command("improve")
+@app.command("improve", cls=_Command)
 def improve_command(
     budget: BudgetArg,
     target: Annotated[str | None, typer.Option("--target", "-t",
@@ -229,11 +260,12 @@ class Side(StrEnum):
     lower_limit = "lower"
 
 
-@app.command("batch")
+@app.command("batch", cls=_Command)
 def batch_command(
     budget: Annotated[Path, typer.Argument(help="budget file, or a folder of budgets (one per analyte)",
-                                           show_default=False)],
-    table: Annotated[Path, typer.Argument(help="samples table, .csv or .xlsx", show_default=False)],
+                                           show_default=False, metavar="BUDGET")],
+    table: Annotated[Path, typer.Argument(help="samples table, .csv or .xlsx", show_default=False,
+                                          metavar="TABLE")],
     output: Annotated[Path, typer.Option("--output", "-o", help="output table, .csv or .xlsx",
                                          show_default=False)],
     map_: Annotated[list[str] | None, typer.Option("--map", help="INPUT=COLUMN (repeatable)")] = None,
@@ -385,11 +417,27 @@ def _progress(wanted: bool) -> Iterator[Callable[[int, int], None] | None]:
         yield update
 
 
+DEFAULT_WIDTH = 100  # columns when output goes to a file or pipe and COLUMNS is not set
+
+
+def _width() -> int:
+    """COLUMNS when it holds a sensible width, else the default (a pipe has no width of its own)."""
+    import os
+
+    text = os.environ.get("COLUMNS", "").strip()
+    return max(40, min(int(text), 1000)) if text.isdigit() else DEFAULT_WIDTH
+
+
 def _console() -> Console:
-    """A console for stdout, 120 columns wide when output goes to a file or pipe."""
+    """A console for stdout; when output goes to a file or pipe, as wide as COLUMNS says and without colour.
+
+    Highlighting is off: rich would otherwise colour every number inside free text (titles, notes).
+    """
     from rich.console import Console
 
-    return Console() if sys.stdout.isatty() else Console(width=120, color_system=None)
+    if sys.stdout.isatty():
+        return Console(highlight=False)
+    return Console(width=_width(), color_system=None, highlight=False)
 
 
 def main() -> None:

@@ -32,9 +32,8 @@ def _mode_for(target: Path) -> int:
     return 0o666 & ~mask
 
 
-def write_atomic(path: str | Path, data: str | bytes, *, force: bool = False,
-                 inputs: Iterable[str | Path] = ()) -> Path:
-    """Write ``data`` to ``path`` atomically; refuse to replace an input, or an existing file without ``force``."""
+def check_target(path: str | Path, *, force: bool = False, inputs: Iterable[str | Path] = ()) -> Path:
+    """Refuse an output that is an input, a folder, an existing file without ``force``, or in a missing folder."""
     target = Path(path)
     for source in inputs:
         if _same(target, Path(source)):
@@ -45,7 +44,15 @@ def write_atomic(path: str | Path, data: str | bytes, *, force: bool = False,
         raise OutputError(target, "exists already; use --force to replace it")
     folder = target.parent if str(target.parent) else Path(".")
     if not folder.is_dir():
-        raise OutputError(target, f"folder '{folder}' does not exist")
+        raise OutputError(target, f"folder '{folder}' does not exist; create it first")
+    return target
+
+
+def write_atomic(path: str | Path, data: str | bytes, *, force: bool = False,
+                 inputs: Iterable[str | Path] = ()) -> Path:
+    """Write ``data`` to ``path`` atomically; refuse to replace an input, or an existing file without ``force``."""
+    target = check_target(path, force=force, inputs=inputs)
+    folder = target.parent if str(target.parent) else Path(".")
     payload = data.encode("utf-8") if isinstance(data, str) else data
     try:
         fd, tmp = tempfile.mkstemp(dir=folder, prefix=f".{target.name}.", suffix=".tmp")

@@ -76,13 +76,33 @@ def same_dimension(a: Any, b: Any) -> bool:
     return reg.Quantity(1.0, a).dimensionality == reg.Quantity(1.0, b).dimensionality
 
 
+_SUPERSCRIPT = str.maketrans("0123456789-.", "⁰¹²³⁴⁵⁶⁷⁸⁹⁻·")
+
+
 def pretty(unit: Any) -> str:
-    """Short human form of a unit, e.g. 'mg/L', 'µg/L' ('' when dimensionless)."""
-    if unit == registry().dimensionless:
+    """Short human form of a unit from pint's symbols: 'mg/L', 'µg/L', 'count·L/(µg·s)', 'm²' ('' if dimensionless)."""
+    reg = registry()
+    if unit == reg.dimensionless:
         return ""
-    text = f"{unit:~C}"
-    text = re.sub(r"(?<![A-Za-z])([munpkdcµ]?)l(?![A-Za-z])", r"\1L", text)  # litre as L, the lab habit
-    return re.sub(r"(?<![A-Za-z])u(?=[a-zA-Z])", "µ", text)
+
+    def power(name: str, exponent: float) -> str:
+        symbol = reg.get_symbol(name)
+        symbol = re.sub(r"^([munpkdcµ]?)l$", r"\1L", symbol)  # litre as L, the lab habit
+        symbol = re.sub(r"^u(?=[a-zA-Z])", "µ", symbol).removeprefix("Δ")  # a °C difference reads as °C
+        e = abs(exponent)
+        if e == 1:
+            return symbol
+        text = f"{e:g}"
+        return symbol + text.translate(_SUPERSCRIPT)
+
+    items = list(unit._units.items())
+    above = [power(n, e) for n, e in items if e > 0]
+    below = [power(n, e) for n, e in items if e < 0]
+    top = "·".join(above) or "1"
+    if not below:
+        return top
+    bottom = below[0] if len(below) == 1 else "(" + "·".join(below) + ")"
+    return f"{top}/{bottom}"
 
 
 def display(text: str | None) -> str:
@@ -93,6 +113,20 @@ def display(text: str | None) -> str:
         return pretty(parse_unit(text))
     except ExpressionError:
         return text
+
+
+def per(numerator: str | None, denominator: str | None) -> str:
+    """Unit of a sensitivity coefficient, written as the ratio it is: '(mg/L)/mL', 'µg/L', '1/mL' ('' if none)."""
+    top, bottom = display(numerator), display(denominator)
+    if top == bottom:
+        return ""
+    if not bottom:
+        return top
+
+    def group(text: str) -> str:
+        return f"({text})" if any(c in text for c in "/·") else text
+
+    return f"{group(top) if top else '1'}/{group(bottom)}"
 
 
 def normalise(node: expr.Node, units: dict[str, Any]) -> tuple[expr.Node, Any]:

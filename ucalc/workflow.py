@@ -66,6 +66,30 @@ def evaluate(path: str | Path, *, method: Method = "gum", second_order: bool = F
     return evaluate_budget(budget, method=method, second_order=second_order, mc=mc, progress=progress)
 
 
+ReportKind = Literal["html", "md", "pdf"]
+REPORT_SUFFIXES: dict[str, ReportKind] = {".html": "html", ".htm": "html", ".md": "md", ".markdown": "md",
+                                          ".pdf": "pdf"}
+
+
+def report_format(output: str | Path, fmt: str | None = None) -> ReportKind:
+    """The report format named by ``fmt`` or by the output's extension; an unknown or contradicting one is refused."""
+    from .outputs import OutputError
+
+    suffix = Path(output).suffix.lower()
+    by_name = REPORT_SUFFIXES.get(suffix)
+    if fmt is None:
+        if by_name is None:
+            what = f"extension '{suffix}'" if suffix else "no extension"
+            raise OutputError(output, f"{what} is not a report format; name the file .html, .pdf or .md")
+        return by_name
+    if by_name is not None and by_name != fmt:
+        raise OutputError(output, f"the extension '{suffix}' says {by_name}, but --format says {fmt}; "
+                                  "make them agree")
+    if fmt not in ("html", "md", "pdf"):
+        raise OutputError(output, f"'{fmt}' is not a report format; use html, pdf or md")
+    return fmt  # type: ignore[return-value]
+
+
 def render_report(evaluation: Evaluation, fmt: Literal["html", "md"], *, digits: int = 2) -> str:
     """The report document for an evaluation, as HTML (with charts) or Markdown."""
     from .reports import document
@@ -80,16 +104,28 @@ def render_report(evaluation: Evaluation, fmt: Literal["html", "md"], *, digits:
     return markdown.render(context)
 
 
-def report(path: str | Path, output: str | Path, *, fmt: Literal["html", "md"] = "html", method: Method = "both",
+def report(path: str | Path, output: str | Path, *, fmt: str | None = None, method: Method = "both",
            mc: MonteCarloOptions | None = None, force: bool = False, digits: int = 2,
-           progress: Progress | None = None) -> Path:
-    """Evaluate a budget and write its report atomically (never over the budget; existing file only if forced)."""
-    from .outputs import OutputError, write_atomic
+           progress: Progress | None = None, settings: list[str] | None = None) -> Path:
+    """Evaluate a budget and write its report atomically (never over the budget; existing file only if forced).
 
-    if Path(output).exists() and not force:
-        raise OutputError(output, "exists already; use --force to replace it")
-    evaluation = evaluate(path, method=method, mc=mc, progress=progress)
-    return write_atomic(output, render_report(evaluation, fmt, digits=digits), force=force, inputs=[path])
+    ``fmt`` is html, md or pdf (default: from the output's extension). The output is checked before the
+    (possibly long) evaluation, so a wrong path fails at once.
+    """
+    from .outputs import check_target, write_atomic
+
+    check_target(output, force=force, inputs=[path])
+    kind = report_format(output, fmt)
+    if kind == "pdf":
+        from .reports import pdf
+
+        pdf.require()
+    evaluation = evaluate(path, method=method, mc=mc, progress=progress, settings=settings)
+    if kind == "pdf":
+        data: str | bytes = pdf.render(render_report(evaluation, "html", digits=digits))
+    else:
+        data = render_report(evaluation, kind, digits=digits)
+    return write_atomic(output, data, force=force, inputs=[path])
 
 
 def load_with_settings(path: str | Path, settings: list[str] | None = None) -> tuple[Any, Budget]:

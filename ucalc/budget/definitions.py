@@ -194,6 +194,16 @@ class Reporting:
 
 
 @dataclass(frozen=True)
+class DocumentControl:
+    """Optional document-control fields of a budget: method, document id, version and sign-offs (by, date)."""
+
+    method: str = ""
+    id: str = ""
+    version: str = ""
+    signoffs: tuple[tuple[str, str, str], ...] = ()  # (role: prepared/reviewed/approved, by, ISO date or '')
+
+
+@dataclass(frozen=True)
 class Budget:
     """A validated budget, ready for the engines."""
 
@@ -211,6 +221,7 @@ class Budget:
     correlation_origins: dict[tuple[str, str], str] = field(default_factory=dict)  # why each r exists
     details: dict[str, dict[str, Any]] = field(default_factory=dict)  # input models' numbers, by input
     raw_inputs: dict[str, dict[str, Any]] = field(default_factory=dict, repr=False, compare=False)
+    document: DocumentControl | None = None
 
     @classmethod
     def from_dict(cls, data: Mapping[str, Any], source: str = "<dict>") -> Budget:

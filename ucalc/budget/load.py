@@ -19,7 +19,7 @@ from pydantic import BaseModel, ValidationError
 
 from .. import expr, units
 from ..errors import BudgetError, BudgetErrors, ExpressionError, Location
-from .definitions import Budget, Coverage, Measurand, Model, ModelLine, Quantity, Reporting
+from .definitions import Budget, Coverage, DocumentControl, Measurand, Model, ModelLine, Quantity, Reporting
 from .schema import BudgetSpec, CorrelationSpec, CoverageSpec, MeasurandSpec
 from .yamlio import Document, PathKey, load_yaml, parse_yaml
 
@@ -242,7 +242,18 @@ def _build(doc: Document) -> Budget:
         raw_inputs=built.raw,
         limits=limits,
         reporting=Reporting(spec.reporting.method, spec.reporting.reason) if spec.reporting else None,
+        document=_document(spec),
     )
+
+
+def _document(spec: BudgetSpec) -> DocumentControl | None:
+    d = spec.document
+    if d is None:
+        return None
+    signoffs = tuple((role, s.by, s.date or "")
+                     for role, s in (("prepared", d.prepared), ("reviewed", d.reviewed), ("approved", d.approved))
+                     if s is not None)
+    return DocumentControl(d.method or "", d.id or "", "" if d.version is None else str(d.version), signoffs)
 
 
 def _subject_from_rule(e: BudgetError) -> BudgetError:

@@ -6,6 +6,7 @@ Documented in docs/budget-format.md.
 
 from __future__ import annotations
 
+import datetime as _dt
 import re
 from typing import Any, Literal
 
@@ -57,6 +58,34 @@ class ReportingSpec(_Strict):
     reason: str = Field(min_length=1, max_length=500)
 
 
+class SignOffSpec(_Strict):
+    """Who (a role or name, as the laboratory's document control requires) and when."""
+
+    by: str = Field(min_length=1, max_length=200)
+    date: str | None = None
+
+    @field_validator("date")
+    @classmethod
+    def _iso(cls, v: str | None) -> str | None:
+        if v is not None:
+            try:
+                _dt.date.fromisoformat(v)
+            except ValueError:
+                raise ValueError(f"must be a date written YYYY-MM-DD (got {v!r})") from None
+        return v
+
+
+class DocumentSpec(_Strict):
+    """Optional document-control fields printed on every report page (ISO/IEC 17025 8.3)."""
+
+    method: str | None = Field(default=None, max_length=300)
+    id: str | None = Field(default=None, max_length=100)
+    version: str | int | None = None
+    prepared: SignOffSpec | None = None
+    reviewed: SignOffSpec | None = None
+    approved: SignOffSpec | None = None
+
+
 class BudgetSpec(_Strict):
     ucalc: int
     title: str = Field(min_length=1)
@@ -69,6 +98,7 @@ class BudgetSpec(_Strict):
     limits: dict[str, Any] | None = None  # validated by ucalc.qc.limits.LimitsSpec
     description: str | None = None
     reporting: ReportingSpec | None = None
+    document: DocumentSpec | None = None
 
     @field_validator("ucalc")
     @classmethod

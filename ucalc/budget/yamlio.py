@@ -109,6 +109,8 @@ def parse_yaml(text: str, file: str) -> Document:
         _fail(f"YAML: {str(exc).splitlines()[0] if str(exc) else type(exc).__name__}", file)
     except RecursionError:
         _fail("YAML nested too deeply", file)
+    except ValueError as exc:  # an impossible date such as 2026-13-04, which YAML reads as a timestamp
+        _fail(f"YAML: a value written as a date is not a calendar date ({exc}); write dates YYYY-MM-DD", file)
     doc = Document(file=file, data=None, text=text)
     counter = [0]
     doc.data = _plain(raw, (), doc, counter, 0)

@@ -10,6 +10,8 @@ import io
 import math
 from typing import TYPE_CHECKING
 
+from .common import share_text
+
 if TYPE_CHECKING:
     from ..engines.gum import GumResult
     from ..engines.montecarlo import MonteCarloResult
@@ -45,9 +47,10 @@ def contribution_chart(gum: GumResult, unit: str, most: int = 12) -> str:
     bars = ax.barh([r.input for r in rows], values, color="#b8c4d6", edgecolor="black", hatch="///",
                    linewidth=0.6)
     for bar, row in zip(bars, rows, strict=True):
-        ax.text(bar.get_width(), bar.get_y() + bar.get_height() / 2, f"  {100 * row.variance_share:.1f} %", va="center",
-                fontsize=8)
-    ax.set_xlabel("contribution |c_i|·u(x_i)" + (f" / {unit}" if unit else ""))
+        # an offset in points, not leading spaces: SVG collapses white space, and the label would touch the bar
+        ax.annotate(f"{share_text(row.variance_share)} %", (bar.get_width(), bar.get_y() + bar.get_height() / 2),
+                    xytext=(4, 0), textcoords="offset points", va="center", fontsize=8)
+    ax.set_xlabel("u_i(y) = |c_i|·u(x_i)" + (f" / {unit}" if unit else ""))
     ax.set_xlim(0, max(values) * 1.3 if max(values) > 0 else 1)
     ax.set_title("Contributions to the combined standard uncertainty", fontsize=10, loc="left")
     return _svg(plt, fig)
@@ -85,7 +88,7 @@ def distribution_chart(gum: GumResult, mc: MonteCarloResult, unit: str) -> str:
     ax.set_xlabel(f"{gum.measurand}" + (f" / {unit}" if unit else ""))
     ax.set_ylabel("probability density")
     ax.set_yticks([])
-    ax.legend(fontsize=7, frameon=False, loc="upper right")
+    ax.legend(fontsize=7, frameon=False, loc="upper right", handletextpad=1.0)
     ax.set_title(f"Output distribution, {mc.trials:,} trials", fontsize=10, loc="left")
     return _svg(plt, fig)
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, Any
 
-from .common import num
+from .common import estimate_text, expanded_text
 
 if TYPE_CHECKING:
     from rich.console import Console
@@ -15,6 +15,11 @@ KINDS = {"zero": "bound", "halved": "bound", "action": "action"}
 
 
 def render(console: Console, result: Improvement, most: int = 40) -> None:
+    """The options as a table (the change text wraps; numbers never do), the first step and the target plan.
+
+    U is rounded as ``ucalc run`` rounds it: two significant digits (JCGM 100 7.2.6).
+    """
+    from rich import box
     from rich.markup import escape
     from rich.table import Table
 
@@ -22,15 +27,21 @@ def render(console: Console, result: Improvement, most: int = 40) -> None:
 
     unit = pretty_unit(result.unit)
     u = f" {unit}" if unit else ""
+
+    def big_u(x: float) -> str:
+        return expanded_text(x)
+
     console.print(f"[bold]Improvement options for {escape(result.measurand)}[/bold]: now U = "
-                  f"{num(result.expanded_uncertainty, 3)}{u}")
-    table = Table(header_style="bold")
-    for col, justify in [("input", "left"), ("change", "left"), ("kind", "left"), (f"U after{u}", "right"),
-                         ("reduction", "right"), ("reduction %", "right")]:
-        table.add_column(escape(col), justify=justify)  # type: ignore[arg-type]
+                  f"{big_u(result.expanded_uncertainty)}{escape(u)}")
+    table = Table(box=box.SIMPLE_HEAD, show_edge=False, pad_edge=False, header_style="bold")
+    table.add_column("input", overflow="fold", min_width=6)
+    table.add_column("change", overflow="fold", ratio=1, min_width=16)
+    table.add_column("kind", no_wrap=True)
+    table.add_column(escape(f"U after\n{unit}".rstrip()), justify="right", no_wrap=True)
+    table.add_column("U less\nby %", justify="right", no_wrap=True)
     for o in result.options[:most]:
-        table.add_row(escape(o.input), escape(o.action), KINDS[o.kind], num(o.expanded_uncertainty, 3),
-                      num(o.reduction, 3), f"{100 * o.relative_reduction:.1f}")
+        table.add_row(escape(o.input), escape(o.action.removesuffix(" (bound)")), KINDS[o.kind],
+                      big_u(o.expanded_uncertainty), f"{100 * o.relative_reduction:.1f}")
     console.print(table)
     if len(result.options) > most:
         console.print(f"({len(result.options) - most} more options in --format json)")
@@ -38,20 +49,20 @@ def render(console: Console, result: Improvement, most: int = 40) -> None:
     if actions:
         best = actions[0]
         console.print(escape(f"step to improve first: {best.input} — {best.action}: U from "
-                             f"{num(result.expanded_uncertainty, 3)} to {num(best.expanded_uncertainty, 3)}{u} "
+                             f"{big_u(result.expanded_uncertainty)} to {big_u(best.expanded_uncertainty)}{u} "
                              f"({100 * best.relative_reduction:.0f} % less)"))
     plan = result.plan
     if plan is not None:
-        console.print(f"[bold]Target U ≤ {num(plan.target, 3)}{u}[/bold] ({escape(plan.searched)})")
+        console.print(f"[bold]Target U ≤ {estimate_text(plan.target, 0.0)}{escape(u)}[/bold] ({escape(plan.searched)})")
         if plan.reachable and plan.actions:
             for o in plan.actions:
                 console.print(escape(f"  - {o.input}: {o.action}"))
-            console.print(f"  reaches U = {num(plan.expanded_uncertainty, 3)}{u}")
+            console.print(f"  reaches U = {big_u(plan.expanded_uncertainty)}{escape(u)}")
         elif plan.reachable:
             console.print("  the budget already meets the target")
         else:
             console.print(f"  no combination of the listed actions reaches it; the floor with every action "
-                          f"applied is U = {num(plan.floor, 3)}{u}")
+                          f"applied is U = {big_u(plan.floor)}{escape(u)}")
     for note in result.skipped:
         console.print(escape(f"note: not evaluated: {note}"))
 

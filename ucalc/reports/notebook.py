@@ -10,7 +10,8 @@ import dataclasses
 from html import escape
 from typing import Any
 
-from .common import dof_text, num, probability_text, result_line
+from ..units import display
+from .common import budget_table, dof_text, fig, num, probability_text, result_line
 
 
 def frame(result: Any) -> Any:
@@ -47,11 +48,10 @@ def html(result: Any) -> str:
     if isinstance(result, GumResult):
         line = result_line(result.measurand, result.value, result.unit, result.expanded_uncertainty,
                            result.coverage_factor, result.coverage_probability)
-        head = ["input", "value", "unit", "u(x)", "dof", "c", "|c| u(x)", "type", "distribution"]
-        rows = [[c.input, num(c.value, 6), c.unit, num(c.standard_uncertainty), dof_text(c.dof), num(c.sensitivity),
-                 num(c.contribution), c.kind, c.shape] for c in result.contributions]
-        rows.append([f"{result.measurand} (u_c, nu_eff)", num(result.value, 6), result.unit,
-                     num(result.standard_uncertainty), dof_text(result.effective_dof), "", "", "", ""])
+        head, rows = budget_table(result)
+        head = [h.replace("\n", " ") for h in head]
+        rows.append([f"{result.measurand} (u_c, ν_eff)", num(result.value, 6), display(result.unit),
+                     fig(result.standard_uncertainty), dof_text(result.effective_dof), "", "", ""])
         return f"<p>GUM (JCGM 100): {escape(line)}</p>{_table(head, rows)}"
     low, high = result.interval
     short_low, short_high = result.shortest_interval

@@ -2,20 +2,27 @@
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 from .. import units
 from ..budget.definitions import Budget
 from ..engines.gum import GumResult
-from .common import CAUTION, dof_text, num, probability_text, result_line
+from .common import (
+    CAUTION,
+    at_place_of,
+    budget_table,
+    dof_equation,
+    estimate_text,
+    fig,
+    kind_text,
+    probability_text,
+    result_line,
+)
 
 if TYPE_CHECKING:
     from rich.console import Console
 
     from ..engines.montecarlo import MonteCarloResult
-
-
-SHAPES = {"rectangular": "rect", "triangular": "tri", "combined": "mixed"}
 
 
 _unit = units.display
@@ -30,7 +37,7 @@ def render_header(console: Console, budget: Budget) -> None:
     for setting in budget.settings:
         console.print(escape(f"scenario, not the file as written: --set {setting}"))
     desc = f" — {budget.measurand.description}" if budget.measurand.description else ""
-    console.print(escape(f"measurand {budget.measurand.symbol} [{mu or 'dimensionless'}]{desc}"))
+    console.print(escape(f"measurand {budget.measurand.symbol}{' in ' + mu if mu else ' (no unit)'}{desc}"))
     for line in budget.model.lines:
         console.print(escape(f"  {line.name} = {line.text}"))
 
@@ -45,81 +52,114 @@ def render_monte_carlo(console: Console, budget: Budget, mc: MonteCarloResult) -
     console.print(f"[bold]Monte Carlo[/bold] (JCGM 101): {mc.trials:,} trials ({how}), seed {mc.seed}")
     pct = probability_text(mc.coverage_probability)
     estimate = "median" if mc.estimate == "median" else "mean"
-    sd = (f"standard deviation {num(mc.standard_uncertainty, 3)}{unit}" if mc.standard_uncertainty is not None
-          else "standard deviation not defined (an input's variance does not exist)")
-    console.print(f"  {estimate} {num(mc.value, 8)}{unit}, {sd}")
-    console.print(f"  {pct} probabilistically symmetric interval [{num(mc.interval[0], 8)}, "
-                  f"{num(mc.interval[1], 8)}]{unit}")
-    console.print(f"  {pct} shortest interval [{num(mc.shortest_interval[0], 8)}, "
-                  f"{num(mc.shortest_interval[1], 8)}]{unit}")
+    sd = mc.standard_uncertainty  # None where an input's variance does not exist (JCGM 101 6.4.9)
+
+    sd_text = (f"standard deviation {at_place_of(sd, sd, 2)}{unit}" if sd is not None
+               else "standard deviation not defined (an input's variance does not exist)")
+    from ..statement import interval_texts  # the digits of the result statement (JCGM 101 7.8)
+
+    mean_text, low, high = interval_texts(mc.value, mc.interval)
+    _, short_low, short_high = interval_texts(mc.value, mc.shortest_interval)
+    console.print(f"  {estimate} {mean_text}{unit}, {sd_text}")
+    console.print(f"  {pct} probabilistically symmetric interval [{low}, {high}]{unit}")
+    console.print(f"  {pct} shortest interval [{short_low}, {short_high}]{unit}")
     pr = mc.precision
     if pr is not None:
-        se_u = num(pr.standard_uncertainty, 2) if pr.standard_uncertainty is not None else "not defined"
+        se_u = fig(pr.standard_uncertainty, 2) if pr.standard_uncertainty is not None else "not defined"
         console.print(f"  standard errors from {pr.blocks} blocks of {pr.trials_per_block:,} trials (JCGM 101 7.9): "
-                      f"{estimate} {num(pr.value, 2)}, u {se_u}, low end {num(pr.low, 2)}, high end "
-                      f"{num(pr.high, 2)}{unit}")
+                      f"{estimate} {fig(pr.value, 2)}, u {se_u}, low end {fig(pr.low, 2)}, high end "
+                      f"{fig(pr.high, 2)}{unit}")
     if mc.nonfinite:
         console.print(f"  non-finite trials: {mc.nonfinite} (left out)")
     v = mc.validation
     if v is not None:
         verdict = {"passed": "[green]passed[/green]", "failed": "[red]failed[/red]",
                    "undecided": "[yellow]undecided[/yellow]"}[v.verdict]
-        scatter = (f", endpoint scatter ±{num(v.scatter_low, 2)}/±{num(v.scatter_high, 2)}{unit}"
+        scatter = (f", endpoint scatter ±{fig(v.scatter_low, 2)}/±{fig(v.scatter_high, 2)}{unit}"
                    if v.scatter_low is not None and v.scatter_high is not None else "")
-        console.print(f"  GUM validation (JCGM 101 8.2): delta = {num(v.delta, 2)}{unit}, d_low = "
-                      f"{num(v.d_low, 2)}{unit}, d_high = {num(v.d_high, 2)}{unit}{scatter}: {verdict}")
+        console.print(f"  GUM validation (JCGM 101 8.2): delta = {fig(v.delta, 2)}{unit}, d_low = "
+                      f"{fig(v.d_low, 2)}{unit}, d_high = {fig(v.d_high, 2)}{unit}{scatter}: {verdict}")
     for note in mc.notes:
         console.print(escape(f"  note: {note}"))
 
 
-def render_gum(console: Console, budget: Budget, result: GumResult, show_result: bool = True) -> None:
-    """Print the budget table and the result line to a rich console."""
+def _table(columns: list[tuple[str, str]], rows: list[list[str]]) -> Any:
+    """A plain table: header rule only, names fold onto a second line, numbers never wrap or get cut."""
+    from rich import box
     from rich.table import Table
 
-    mu = _unit(result.unit)
+    table = Table(box=box.SIMPLE_HEAD, show_edge=False, pad_edge=False, header_style="bold", padding=(0, 1))
+    for i, (title, justify) in enumerate(columns):
+        if i == 0:
+            table.add_column(title, justify="left", overflow="fold", min_width=6)
+        else:
+            table.add_column(title, justify=justify, no_wrap=True)  # type: ignore[arg-type]
+    for row in rows:
+        table.add_row(*row)
+    return table
+
+
+def _needed(columns: list[tuple[str, str]], rows: list[list[str]]) -> int:
+    """Width the table takes with every cell on one line (header lines count by their longest line)."""
+    widths = [max([len(line) for line in title.split("\n")] + [len(r[i]) for r in rows])
+              for i, (title, _) in enumerate(columns)]
+    return sum(widths) + 3 * (len(columns) - 1)  # one space of padding each side and a blank rule
+
+
+def budget_rows(result: GumResult) -> tuple[list[tuple[str, str]], list[list[str]]]:
+    """The budget table's columns (title, justification) and rows, escaped for rich markup."""
     from rich.markup import escape
 
-    table = Table(title=None, show_lines=False, header_style="bold")
-    for col, justify in [("input", "left"), ("estimate", "right"), ("unit", "left"), ("u", "right"),
-                         ("type", "left"), ("dof", "right"), ("c_i", "right"), (escape(f"|c_i|·u [{mu}]"), "right"),
-                         ("index %", "right")]:
-        table.add_column(col, justify=justify)  # type: ignore[arg-type]
-    for row in result.contributions:
-        kind = row.kind if row.kind == "exact" else f"{row.kind} {SHAPES.get(row.shape, row.shape)}"
-        table.add_row(row.input, num(row.value, 7), _unit(row.unit), num(row.standard_uncertainty, 3), kind,
-                      dof_text(row.dof), num(row.sensitivity, 4), num(row.contribution, 3),
-                      f"{100 * row.variance_share:.1f}")
-    console.print(table)
-    console.print(f"u_c = {num(result.standard_uncertainty, 3)}{' ' + mu if mu else ''}, effective dof "
-                  f"{dof_text(result.effective_dof)}" + (", second-order terms included" if result.second_order
-                                                         else ""))
-    if show_result:
-        console.print("[bold]" + result_line(result.measurand, result.value, mu, result.expanded_uncertainty,
-                                             result.coverage_factor, result.coverage_probability) + "[/bold]")
-    else:
-        console.print(escape("GUM: " + result_line(result.measurand, result.value, mu, result.expanded_uncertainty,
-                                                   result.coverage_factor, result.coverage_probability)))
+    head, rows = budget_table(result)
+    columns = [(escape(title), "left" if i in (0, 2) else "right") for i, title in enumerate(head)]
+    return columns, [[escape(cell) for cell in row] for row in rows]
+
+
+def render_gum(console: Console, budget: Budget, result: GumResult, show_result: bool = True) -> None:
+    """Print the budget table and the result line; at a narrow width the table is printed in two parts."""
+    from rich.markup import escape
+
+    mu = _unit(result.unit)
+    columns, rows = budget_rows(result)
+    if _needed(columns, rows) <= console.width:
+        console.print(_table(columns, rows))
+    else:  # the input, its estimate and u(x_i); then what it contributes to u_c
+        console.print(_table(columns[:5], [r[:5] for r in rows]))
+        console.print(_table([columns[0], *columns[5:]], [[r[0], *r[5:]] for r in rows]))
+    console.print(f"share of u_c² = (u_i(y)/u_c)²; u_c = {fig(result.standard_uncertainty)}{' ' + mu if mu else ''}, "
+                  f"{dof_equation('ν_eff', result.effective_dof)}"
+                  + (", second-order terms included" if result.second_order else ""))
+    gum_line = escape(result_line(result.measurand, result.value, mu, result.expanded_uncertainty,
+                                  result.coverage_factor, result.coverage_probability))
+    console.print(f"[bold]{gum_line}[/bold]" if show_result else f"GUM: {gum_line}")
     for note in (*result.notes, *budget.warnings):
         console.print(escape(f"note: {note}"))
 
 
-def render_working(console: Console, budget: Budget) -> None:
-    """How each derived input was obtained (input models), one block per quantity that has working."""
+def render_working(console: Console, budget: Budget, result: GumResult | None = None) -> None:
+    """Each input: how its u was evaluated (type, distribution) and, for input models, the working."""
     from rich.markup import escape
 
-    shown = [q for q in budget.quantities.values() if q.working]
-    if not shown and not budget.working:
-        return
-    console.print("[bold]Derived inputs[/bold]")
+    order = [r.input for r in result.contributions] if result is not None else []
+    names = [n for n in order if n in budget.quantities] + [n for n in budget.quantities if n not in order]
+    console.print("[bold]Inputs[/bold] (type of evaluation, distribution, working)")
     for name, (model, lines) in budget.working.items():
         if lines:
             console.print(escape(f"  {name} ({model}): defined in the model"))
             for line in lines:
                 console.print(escape(f"    {line}"))
-    for q in shown:
+    for name in names:
+        q = budget.quantities[name]
         unit = f" {_unit(q.unit)}" if q.unit else ""
-        console.print(escape(f"  {q.name} ({q.model}): {num(q.value, 7)}{unit}, u = {num(q.standard_uncertainty, 3)}"
-                             f"{unit}, dof {dof_text(q.dof)}"))
+        how = kind_text(q.kind, q.shape)
+        if q.components:
+            count = len(q.components)
+            how += f" from {count} components" if count > 1 else ""
+            figures = f"{estimate_text(q.value, q.standard_uncertainty)}{unit}, u = {fig(q.standard_uncertainty)}" \
+                      f"{unit}, {dof_equation('ν', q.dof)}"
+        else:
+            figures = f"{estimate_text(q.value, 0.0)}{unit}"
+        console.print(escape(f"  {q.name} ({q.model}): {figures}; {how}"))
         for line in q.working:
             console.print(escape(f"    {line}"))
 
@@ -150,7 +190,7 @@ def render_evaluation(console: Console, budget: Budget, gum: GumResult, mc: Mont
     render_header(console, budget)
     if show_gum:
         render_gum(console, budget, gum, show_result=mc is None)
-        render_working(console, budget)
+        render_working(console, budget, gum)
         render_correlations(console, budget)
     if mc is not None:
         render_monte_carlo(console, budget, mc)
