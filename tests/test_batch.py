@@ -172,3 +172,54 @@ def test_map_renames_columns(tmp_path) -> None:
 
 def test_unit_budget_loads() -> None:
     assert load_budget_text(LEAD.read_text(encoding="utf-8")).measurand.unit == "µg/L"
+
+
+LOQ_BUDGET = """ucalc: 1
+title: mixed relative and absolute components
+measurand: {symbol: c, unit: ug/L}
+model: |
+  c = c_raw * f
+coverage: {probability: 0.95}
+inputs:
+  c_raw:
+    unit: ug/L
+    value: 10.0
+    components:
+      - {name: repeatability, standard: 0.03, relative: true, dof: 4}
+      - {name: blank, standard: 0.05, dof: 9}
+  f:
+    value: 1.0
+    components:
+      - {name: dilution, standard: 0.005}
+"""
+
+
+@pytest.mark.parametrize(("side", "limit", "rule", "expected"), [
+    ("upper", "5", "simple", "conforms"),  # LOQ 0.5 conforms: every value below it does
+    ("upper", "0.2", "simple", "cannot be decided"),  # limit below the LOQ: y may lie either side
+    ("upper", "0.55", "guarded-acceptance", "cannot be decided"),  # LOQ + U at the LOQ is above the limit
+    ("lower", "0.2", "simple", "cannot be decided"),  # y < 0.5 may lie above or below 0.2
+    ("lower", "5", "simple", "does not conform"),  # y < 0.5 < 5
+])
+def test_below_loq_is_decided_from_what_is_known(tmp_path, side: str, limit: str, rule: str, expected: str) -> None:
+    # rule of docs/batch.md: a "< LOQ" result is decided as the LOQ itself would be (its U computed at the LOQ,
+    # JCGM 100 G.4.1 by hand below); JCGM 106 does not treat censored results (common practice for the rest)
+    budget = tmp_path / "b.yaml"
+    budget.write_text(LOQ_BUDGET, encoding="utf-8")
+    table = tmp_path / "s.csv"
+    table.write_text("sample,c_raw\nA,0.1\n", encoding="utf-8")
+    out = tmp_path / "o.csv"
+    result = run_batch(str(budget), str(table), "-o", str(out), "--limit", limit, "--loq", "0.5", "--side", side,
+                       "--rule", rule)
+    assert result.exit_code == 0, result.output
+    rows = pd.read_csv(out, keep_default_na=False)
+    assert rows["decision"][0] == expected
+    assert "LOQ 0.5" in rows["decision_reason"][0]
+    if side == "upper":
+        # U at c = 0.5 by hand: u(c_raw) from 0.015 (dof 4) and 0.05 (dof 9), u(f) term 0.0025; k = t(0.975, 10)
+        a, b, f = 0.015, 0.05, 0.0025
+        nu = (a**2 + b**2) ** 2 / (a**4 / 4 + b**4 / 9)
+        uc = math.sqrt(a**2 + b**2 + f**2)
+        nu_eff = uc**4 / ((a**2 + b**2) ** 2 / nu)
+        U = stats.t.ppf(0.975, math.floor(nu_eff)) * uc
+        assert f"U = {U:.3g} at the LOQ" in rows["decision_reason"][0]

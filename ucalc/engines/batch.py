@@ -125,3 +125,34 @@ def propagate_rows(budget: Budget, rows: list[RowInput], n: int) -> BatchResult:
         array[failed] = np.nan
     y, uc, nu, k, expanded = arrays
     return BatchResult(y, uc, nu, k, expanded, result.coverage_probability, errors)
+
+
+def expanded_at(budget: Budget, make_rows: Any, values: Any, target: Any, iterations: int = 30) -> Any:
+    """U where the measurand equals ``target``, per row: the secant method on one table column's values (the
+    rows' ``values`` as the start), ``make_rows(values) -> list[RowInput]`` rebuilding the rows' inputs from that
+    column. NaN where it does not converge to 1e-9 relative."""
+    import numpy as np
+
+    goal = np.asarray(target, dtype=float)
+    n = goal.size
+
+    def at(v: Any) -> tuple[Any, Any]:
+        res = propagate_rows(budget, make_rows(v), n)
+        return res.value, res.expanded_uncertainty
+
+    x0 = np.asarray(values, dtype=float).copy()
+    x1 = np.where(x0 != 0, x0 * 1.01, 1e-6)
+    f0 = at(x0)[0] - goal
+    y1, U = at(x1)
+    f1 = y1 - goal
+    with np.errstate(all="ignore"):
+        for _ in range(iterations):
+            step = np.where(f1 != f0, f1 * (x1 - x0) / (f1 - f0), 0.0)
+            x0, f0 = x1, f1
+            x1 = x1 - np.where(np.isfinite(step), step, 0.0)
+            y1, U = at(x1)
+            f1 = y1 - goal
+            if np.all(~np.isfinite(f1) | (np.abs(f1) <= 1e-9 * np.abs(goal))):
+                break
+    done = np.isfinite(f1) & (np.abs(f1) <= 1e-9 * np.abs(goal))
+    return np.where(done, U, np.nan)

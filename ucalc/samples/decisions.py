@@ -8,6 +8,13 @@ For an upper limit L (a lower limit mirrors every rule), with the expanded uncer
 - ``guarded_rejection`` (rejection limit L + U): does not conform if y > L + U; conforms if y <= L; between the
   two the result is inconclusive (under a strictly binary rule it is not rejected).
 
+A result reported as "< LOQ" only says that the value lies below the limit of quantification. It is decided by
+:func:`decide_below_loq`: a decision holds only if it holds for every value below the LOQ. Against an upper limit
+the sample conforms only if the LOQ itself conforms under the rule, with the expanded uncertainty at the LOQ;
+against a lower limit it never conforms (it does not conform when the LOQ itself does not); otherwise the
+decision is ``cannot be decided``, with the reason. JCGM 106 does not treat censored results; this rule is
+ucalc's, and a laboratory's own procedure or the applicable regulation may fix another.
+
 The probability of conformance is P(Y <= L) (or P(Y >= L) for a lower limit) for Y distributed as y + u_c t_nu,
 nu the effective degrees of freedom (Gaussian when infinite): JCGM 106 7.2 and 7.3.
 """
@@ -20,6 +27,7 @@ Rule = Literal["simple", "guarded_acceptance", "guarded_rejection"]
 Side = Literal["upper", "lower"]
 
 CONFORMS, FAILS, INCONCLUSIVE = "conforms", "does not conform", "inconclusive"
+UNDECIDED = "cannot be decided"
 
 RULE_TEXT = {
     "simple": "simple acceptance (JCGM 106 8.2; ILAC G8): decided on the measured value alone, guard band w = 0",
@@ -46,13 +54,47 @@ def decide(value: Any, expanded: Any, limit: Any, rule: Rule = "simple", side: S
     return [str(d) for d in decision.ravel()]
 
 
+def decide_below_loq(loq: Any, expanded_at_loq: Any, limit: Any, rule: Rule = "simple",
+                     side: Side = "upper") -> tuple[list[str], list[str]]:
+    """Decisions and reasons for results reported as "< LOQ" (arrays or floats broadcast together).
+
+    The rules of :func:`decide` are monotone in y, so a decision holds for every value below the LOQ exactly when it
+    holds at the LOQ itself, decided with the expanded uncertainty at the LOQ: an upper limit gives ``conforms``
+    only then, a lower limit gives ``does not conform`` only then; every other case is ``cannot be decided``.
+    """
+    import numpy as np
+
+    q, U, L = np.broadcast_arrays(np.asarray(loq, float), np.asarray(expanded_at_loq, float),
+                                  np.asarray(limit, float))
+    at_loq = decide(q, U, L, rule, side)
+    decisions, reasons = [], []
+    for qi, Ui, Li, d in zip(q.ravel(), U.ravel(), L.ravel(), at_loq, strict=True):
+        if not (np.isfinite(qi) and np.isfinite(Li)):
+            decisions.append("")
+            reasons.append("")
+            continue
+        known = "" if np.isfinite(Ui) else "; the expanded uncertainty at the LOQ is not known"
+        if side == "upper" and d == CONFORMS:
+            decisions.append(CONFORMS)
+            reasons.append(f"result < LOQ {qi:g}, and the LOQ itself conforms (U = {Ui:.3g} at the LOQ)")
+        elif side == "lower" and d == FAILS:
+            decisions.append(FAILS)
+            reasons.append(f"result < LOQ {qi:g}, and the LOQ itself does not conform to the lower limit {Li:g}")
+        else:
+            decisions.append(UNDECIDED)
+            reasons.append(f"result < LOQ {qi:g}: at the LOQ the decision would be '{d or 'unknown'}' (U = {Ui:.3g} "
+                           f"at the LOQ{known}), so a value below the LOQ may or may not conform to the {side} "
+                           f"limit {Li:g}")
+    return decisions, reasons
+
+
 def probability_of_conformance(value: Any, u: Any, nu: Any, limit: Any, side: Side = "upper") -> Any:
     """P(Y <= L) (upper) or P(Y >= L) (lower), Y = y + u t_nu; Gaussian for infinite nu (JCGM 106 7.3)."""
     import numpy as np
-    from scipy import stats
+    from scipy import special
 
     y, s, v, L = np.broadcast_arrays(*(np.asarray(a, float) for a in (value, u, nu, limit)))
     with np.errstate(all="ignore"):
         z = (L - y) / s
-        p = np.where(np.isinf(v), stats.norm.cdf(z), stats.t.cdf(z, np.where(np.isinf(v), 1.0, v)))
+        p = np.where(np.isinf(v), special.ndtr(z), special.stdtr(np.where(np.isinf(v), 1.0, v), z))
     return p if side == "upper" else 1.0 - p

@@ -17,7 +17,7 @@ from typing import Any
 
 from ..budget.definitions import Budget
 from ..errors import BudgetError, BudgetErrors, Location, OptionError, UcalcError
-from .decisions import RULE_TEXT, Rule, Side, decide, probability_of_conformance
+from .decisions import RULE_TEXT, Rule, Side, decide, decide_below_loq, probability_of_conformance
 
 CHUNK = 20_000
 OUTPUT_COLUMNS = ("value", "unit", "u", "nu_eff", "k", "U", "U_rel", "statement")
@@ -144,7 +144,7 @@ def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
     import numpy as np
 
     from ..budget.load import load_budget
-    from ..engines.batch import propagate_rows, row_input
+    from ..engines.batch import expanded_at, propagate_rows, row_input
     from ..reports.common import statement
     from ..reports.document import pretty_unit
 
@@ -152,6 +152,7 @@ def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
     out = frame.copy()
     results: dict[str, Any] = {c: np.full(n, np.nan) for c in ("value", "u", "nu_eff", "k", "U", "U_rel")}
     text: dict[str, list[str]] = {c: [""] * n for c in ("unit", "statement", "error")}
+    u_at_loq = np.full(n, np.nan)  # U at the LOQ, for rows reported as "< LOQ" and decided against a limit
     limits = _per_row(frame, "limit_column", options.limit_column, options.limit)
     loq = _per_row(frame, "loq_column", options.loq_column, options.loq)
     done = 0
@@ -175,6 +176,17 @@ def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
             inputs = [row_input(budget, name, budget.raw_inputs.get(name), _numbers(sub, col))
                       for name, col in columns.items()]
             res = propagate_rows(budget, inputs, len(rows))
+            low = np.flatnonzero(np.isfinite(loq[rows]) & (res.value < loq[rows]))
+            if low.size and columns and (options.limit is not None or options.limit_column):
+                name0, col0 = next(iter(columns.items()))
+                low_sub = sub.iloc[low]
+
+                def make(v: Any, low_sub: Any = low_sub, name0: str = name0, budget: Budget = budget,
+                         columns: dict[str, str] = columns) -> list[Any]:
+                    return [row_input(budget, name, budget.raw_inputs.get(name),
+                                      v if name == name0 else _numbers(low_sub, col)) for name, col in columns.items()]
+
+                u_at_loq[rows[low]] = expanded_at(budget, make, _numbers(low_sub, col0), loq[rows[low]])
             results["value"][rows] = res.value
             results["u"][rows] = res.standard_uncertainty
             results["nu_eff"][rows] = res.effective_dof
@@ -210,8 +222,14 @@ def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
     rule_text = None
     if options.limit is not None or options.limit_column:
         rule_text = RULE_TEXT[options.rule] + f", {options.side} limit"
-        decided_value = np.where(below, loq, results["value"])  # below LOQ: decided at the LOQ itself
-        decision = decide(decided_value, results["U"], limits, options.rule, options.side)
+        decision = decide(results["value"], results["U"], limits, options.rule, options.side)
+        reasons = [""] * n
+        low_rows = np.flatnonzero(below)
+        if low_rows.size:
+            low_decisions, low_reasons = decide_below_loq(loq[low_rows], u_at_loq[low_rows], limits[low_rows],
+                                                          options.rule, options.side)
+            for i, d, why in zip(low_rows, low_decisions, low_reasons, strict=True):
+                decision[i], reasons[i] = d, why
         prob = probability_of_conformance(results["value"], results["u"], results["nu_eff"], limits, options.side)
         prob = np.where(below, np.nan, prob)
         if not options.limit_column:
@@ -219,6 +237,8 @@ def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
         out["decision"] = decision
         out["p_conformance"] = prob
         out["decision_rule"] = rule_text
+        if any(reasons):
+            out["decision_reason"] = reasons
         for d in decision:
             if d:
                 decisions[d] = decisions.get(d, 0) + 1
