@@ -69,3 +69,26 @@ def test_celsius_is_a_temperature_difference() -> None:
     assert r.value == pytest.approx(100 * (1 + 2.1e-4 * 4), rel=1e-12)
     t_row = next(c for c in r.contributions if c.input == "t")
     assert t_row.sensitivity == pytest.approx(100 * 2.1e-4, rel=1e-12)  # mL per K (= per °C difference)
+
+
+T_INPUTS = ("  T_c: {value: 25, unit: degC, components: [{name: s, standard: 0.1}]}\n"
+            "  T_c0: {value: 20, unit: degC}\n"
+            "  T_k: {value: 293.15, unit: K, components: [{name: s, standard: 0.1}]}\n"
+            "  T_f: {value: 68, unit: degF}\n"
+            "  d_k: {value: 0.05, unit: K}")
+
+
+@pytest.mark.parametrize("model", ["y = T_c - T_k", "y = T_k + T_c", "y = T_c - T_f", "y = T_f - T_k",
+                                   "y = 2 * (T_c - T_k)"])
+def test_mixed_temperature_scales_are_refused(model: str) -> None:
+    # 25 °C - 293.15 K is 5 K, not -268.15: the Celsius zero is 273.15 K (SI Brochure 2.3.1)  # common practice
+    with pytest.raises(BudgetErrors) as info:
+        load_budget_text(budget(model, "K", T_INPUTS))
+    message = str(info.value)
+    assert "model line 'y'" in message and "temperature in" in message and "one scale" in message
+
+
+def test_differences_within_one_scale_stay_allowed() -> None:
+    # a difference of two Celsius temperatures is a temperature difference, equal in °C and K (SI Brochure 2.3.1)
+    r = propagate(load_budget_text(budget("y = T_c - T_c0 + d_k", "K", T_INPUTS)))
+    assert r.value == pytest.approx(5.05, rel=1e-12)

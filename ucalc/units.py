@@ -188,3 +188,47 @@ def normalise(node: expr.Node, units: dict[str, Any]) -> tuple[expr.Node, Any]:
         raise ExpressionError("expression nested too deeply") from None
     except OverflowError:
         raise UnitError("unit exponent out of range") from None
+
+
+# units whose values are temperatures on a scale (°C and °F are read as delta units, see parse_unit)
+_SCALES = {"delta_degree_Celsius": "°C", "delta_degree_Fahrenheit": "°F", "kelvin": "K", "degree_Rankine": "°R"}
+
+
+def temperature_scale(unit: Any) -> str | None:
+    """'°C', '°F', 'K' or '°R' for a unit that is a temperature on that scale; None for any other unit."""
+    return _SCALES.get(str(unit))
+
+
+def check_temperature_scales(node: expr.Node, scales: dict[str, str | None]) -> str | None:
+    """The scale of a tree's value if it is a temperature on one scale (None for a difference or any other value).
+
+    ``scales`` gives the scale of each name. A sum or difference of a temperature on one scale and a temperature
+    on another (°C and K, °F and K, °C and °F) raises UnitError: the numbers do not share a zero, so no factor
+    makes them comparable (°C − K is off by 273.15). A difference of two temperatures on one scale is a
+    temperature difference and may then be combined with any temperature difference (JCGM 200 1.20 note on
+    quantities of the same kind; common practice).
+    """
+
+    def walk(n: expr.Node) -> str | None:
+        if isinstance(n, expr.Var):
+            return scales.get(n.name)
+        if isinstance(n, expr.Neg):
+            return walk(n.arg)
+        if isinstance(n, expr.Call):
+            walk(n.arg)
+            return None
+        if isinstance(n, expr.Bin):
+            a, b = walk(n.left), walk(n.right)
+            if n.op in "+-":
+                if a and b and a != b:
+                    verb, prep = ("add", "to") if n.op == "+" else ("subtract", "from")
+                    raise UnitError(f"cannot {verb} a temperature in {b} {prep} a temperature in {a}: the two scales "
+                                    "have different zeros; give both on one scale (e.g. both in K), or give the "
+                                    "difference as a difference on one scale", n.column)
+                if n.op == "-" and a and a == b:
+                    return None
+                return a or b
+            return None
+        return None
+
+    return walk(node)

@@ -441,9 +441,11 @@ def _build_model(
     """Parse, check and compile the model lines; names of ``failed`` inputs are not reported again."""
     positions = _model_positions(doc, text)
     known_units: dict[str, Any] = {}
+    scales: dict[str, str | None] = {}  # temperature scale of each name (°C and K values are not comparable)
     for name, q in quantities.items():
         try:
             known_units[name] = units.parse_unit(q.unit)
+            scales[name] = units.temperature_scale(known_units[name])
         except ExpressionError:
             pass
     lines: list[ModelLine] = []
@@ -512,6 +514,7 @@ def _build_model(
             ok = False
             continue
         try:
+            scales[name] = units.check_temperature_scales(tree, scales)
             tree, unit = units.normalise(tree, known_units)
         except ExpressionError as exc:
             col = expr_col + max(exc.column, 1) - 1
