@@ -214,3 +214,34 @@ def test_control_series_from_an_xlsx_column(tmp_path) -> None:
     q = load_budget(path).quantities["F"]
     assert q.standard_uncertainty == pytest.approx(np.std(values, ddof=1), rel=1e-12)  # numpy recomputation
     assert q.dof == 5
+
+
+def test_data_file_links_may_not_leave_the_budget_folder(tmp_path) -> None:
+    outside = tmp_path / "outside.csv"
+    outside.write_text("As\n1.0\n2.0\n")
+    folder = tmp_path / "budgets"
+    folder.mkdir()
+    (folder / "qc.csv").symlink_to(outside)
+    path = folder / "b.yaml"
+    path.write_text(budget_with("    reproducibility:\n      control: {file: qc.csv, column: As}"))
+    with pytest.raises(BudgetErrors) as info:
+        load_budget(path)
+    assert "data file 'qc.csv' must be a path inside the budget's folder" in str(info.value)
+
+
+def test_json_carries_the_models_numbers() -> None:
+    import json
+
+    from typer.testing import CliRunner
+
+    from ucalc.cli import app
+
+    res = CliRunner().invoke(app, ["run", "budgets/arsenic-top-down.yaml", "-f", "json"])
+    assert res.exit_code == 0, res.output
+    models = json.loads(res.stdout)["input_models"]
+    assigned = np.array([5.12, 9.80, 2.45, 7.30, 12.6, 10.0])
+    result = np.array([5.31, 9.55, 2.58, 7.41, 12.2, 10.21])
+    rms = math.sqrt(np.mean(((result - assigned) / assigned) ** 2))  # TR 537 5.2, numpy recomputation
+    assert models["F_bias"]["parts"][0][1] == pytest.approx(rms, rel=1e-12)
+    assert models["F_bias"]["significant"] is False
+    assert [s["dof"] for s in models["F_Rw"]["sources"]][0] == 39.0

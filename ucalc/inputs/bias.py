@@ -254,7 +254,9 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
     q = Quantity(name=name, value=value, unit="" if bs.relative else (spec.unit or ""), components=comps,
                  description=spec.description or "method and laboratory bias", model="bias",
                  working=tuple(working), location=location)
-    return Derived((q,), warnings=warnings)
+    from ..qc import plain
+
+    return Derived((q,), warnings=warnings, details={"correct": bs.correct, "value": value, **plain(est)})
 
 
 def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:

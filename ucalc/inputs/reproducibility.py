@@ -259,4 +259,6 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
     q = Quantity(name=name, value=value, unit=unit, components=tuple(comps),
                  description=spec.description or "within-laboratory reproducibility", model="reproducibility",
                  working=tuple(working), location=location)
-    return Derived((q,))
+    from ..qc import plain
+
+    return Derived((q,), details={"relative": rs.relative, "sources": plain(parts)})

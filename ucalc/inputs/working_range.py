@@ -117,4 +117,8 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
                                                            f"b = {b:.4g}"),) if b > 0 else (),
                           description="reproducibility: relative part", model="working_range", location=location))
     working.append(f"{name} = {name}.u0 + {ws.at} * {name}.b: u = sqrt(u0^2 + (b {ws.at})^2)")
-    return Derived(tuple(parts), expression=f"{name}.u0 + {ws.at} * {name}.b", working=tuple(working))
+    from ..qc import plain
+
+    details = plain({"at": ws.at, "u0": u0, "b": b, "dof_u0": dof_u0, "dof_b": dof_b})
+    return Derived(tuple(parts), expression=f"{name}.u0 + {ws.at} * {name}.b", working=tuple(working),
+                   details=details)

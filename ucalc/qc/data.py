@@ -71,6 +71,13 @@ def read_columns(path: str | Path, numeric: list[str], text: list[str] | None = 
 def budget_relative(budget_file: str, name: str) -> Path:
     """A data file named in a budget: relative to the budget's folder, never absolute or above it."""
     p = Path(name)
-    if p.is_absolute() or ".." in p.parts:
+    folder = Path(budget_file).parent
+    inside = not p.is_absolute() and ".." not in p.parts
+    if inside:
+        try:
+            inside = (folder / p).resolve().is_relative_to(folder.resolve())  # a link may not lead outside
+        except (OSError, RuntimeError):
+            inside = False
+    if not inside:
         raise ValueError(f"data file '{name}' must be a path inside the budget's folder (no absolute path, no '..')")
-    return Path(budget_file).parent / p
+    return folder / p

@@ -3,7 +3,6 @@ across the working range and detection limits, as terminal tables, JSON-ready di
 
 from __future__ import annotations
 
-import dataclasses
 from typing import TYPE_CHECKING, Any
 
 from .common import num
@@ -17,22 +16,11 @@ if TYPE_CHECKING:
     from ..qc.range_fit import RangeFit
 
 
-def _plain(obj: Any) -> Any:
-    """A frozen result as JSON-ready data (non-finite numbers become None)."""
-    import math
-
-    if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
-        return {f.name: _plain(getattr(obj, f.name)) for f in dataclasses.fields(obj)}
-    if isinstance(obj, tuple | list):
-        return [_plain(x) for x in obj]
-    if isinstance(obj, float) and not math.isfinite(obj):
-        return None
-    return obj
-
-
 def to_json(result: Any) -> dict[str, Any]:
     """Any QC result object as a JSON object with its field names as keys."""
-    out = _plain(result)
+    from ..qc import plain
+
+    out = plain(result)
     assert isinstance(out, dict)
     return out
 
