@@ -49,15 +49,24 @@ def test_rows_match_single_budget_runs(tmp_path) -> None:
 
 def test_calibration_rows_match_single_runs(tmp_path) -> None:
     table = tmp_path / "s.csv"
-    table.write_text("sample,c_meas\nA,0.07026\nB,0.0312\n", encoding="utf-8")
+    # C and D are blank-level rows (below the lowest standard, D below the intercept): results under the LOD
+    table.write_text("sample,c_meas\nA,0.07026\nB,0.0312\nC,0.0008\nD,0.0001\n", encoding="utf-8")
     out = tmp_path / "o.csv"
     assert run_batch(str(NICKEL), str(table), "-o", str(out)).exit_code == 0
     rows = pd.read_csv(out)
     for _, row in rows.iterrows():
         y0 = row["c_meas"]
-        ref = single_run(NICKEL, [f"c_meas.calibration.sample=[{y0}, {y0}, {y0}]"])  # same mean of p = 3
-        assert row["value"] == pytest.approx(ref.value, rel=1e-12)
-        assert row["U"] == pytest.approx(ref.expanded_uncertainty, rel=1e-10)
+        # the row's value is the sample's mean Ni/Rh ratio; the same mean of p = 3 readings as raw signals; the
+        # row's covariance with the blank read on the same line changes with y0 and must follow it
+        sample = f"{{analyte: [{y0 * 1e5}, {y0 * 1e5}, {y0 * 1e5}], internal_standard: [1e5, 1e5, 1e5]}}"
+        ref = single_run(NICKEL, [f"c_meas.calibration.sample={sample}"])
+        assert pd.isna(row["error"])
+        assert row["u"] == pytest.approx(ref.standard_uncertainty, rel=1e-10)
+        if row["sample"] in ("C", "D"):
+            assert "below the limit of detection" in row["statement"] and pd.isna(row["value"])
+        else:
+            assert row["value"] == pytest.approx(ref.value, rel=1e-12)
+            assert row["U"] == pytest.approx(ref.expanded_uncertainty, rel=1e-10)
 
 
 def test_failing_rows_are_kept_with_a_reason(tmp_path) -> None:

@@ -11,7 +11,7 @@ row by Welch-Satterthwaite over the components (JCGM 100 G.4.1).
 from __future__ import annotations
 
 import importlib
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 from ..budget.definitions import Budget, Quantity
@@ -27,6 +27,7 @@ class RowInput:
     u: Any
     errors: dict[int, str]
     dof: Any = None
+    correlations: dict[str, Any] = field(default_factory=dict)  # other quantity -> per-row coefficient
 
 
 @dataclass(frozen=True)
@@ -78,7 +79,8 @@ def row_input(budget: Budget, name: str, raw: dict[str, Any] | None, column: Any
         x, u, dof, more = hook(name, raw, values)
         for i, reason in more.items():
             errors.setdefault(i, reason)
-        return RowInput(name, x, u, errors, dof)
+        correlate = getattr(_module(raw), "row_correlations", None)
+        return RowInput(name, x, u, errors, dof, correlate(name, raw, values) if correlate else {})
     u, dof = rescaled(q, values)
     return RowInput(name, values, u, errors, dof)
 
@@ -87,10 +89,13 @@ def _rows_hook(raw: dict[str, Any] | None) -> Any:
     """The input model's own per-row rule ``rows(name, raw, values)``, if it has one."""
     if not isinstance(raw, dict):
         return None
+    return getattr(_module(raw), "rows", None)
+
+
+def _module(raw: dict[str, Any]) -> Any:
     from ..inputs.base import REGISTRY, model_key
 
-    module = importlib.import_module(f"ucalc.inputs.{REGISTRY[model_key(raw)]}")
-    return getattr(module, "rows", None)
+    return importlib.import_module(f"ucalc.inputs.{REGISTRY[model_key(raw)]}")
 
 
 def propagate_rows(budget: Budget, rows: list[RowInput], n: int) -> BatchResult:
@@ -111,7 +116,8 @@ def propagate_rows(budget: Budget, rows: list[RowInput], n: int) -> BatchResult:
             dof[name] = q.dof if r.dof is None else r.dof
         else:
             env[name], u[name], dof[name] = q.value, q.standard_uncertainty, q.dof
-    result = evaluate_rows(budget, env, u, dof, n)
+    per_row_r = {(r.name, other): coefficient for r in rows for other, coefficient in r.correlations.items()}
+    result = evaluate_rows(budget, env, u, dof, n, per_row_r)
     errors: dict[int, str] = {}
     for r in rows:
         for i, e in r.errors.items():

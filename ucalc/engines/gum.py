@@ -224,9 +224,12 @@ def _single_term(s: Any, dofs: Any) -> Any:
     return np.where(only, dofs[first, np.arange(s.shape[1])], np.nan)
 
 
-def evaluate_rows(budget: Budget, env: dict[str, Any], u: dict[str, Any], dof: dict[str, Any], n: int) -> Rows:
+def evaluate_rows(budget: Budget, env: dict[str, Any], u: dict[str, Any], dof: dict[str, Any], n: int,
+                  correlations: dict[tuple[str, str], Any] | None = None) -> Rows:
     """The GUM on ``n`` rows at once: ``env``, ``u`` and ``dof`` give, per input of the model, its estimate,
-    standard uncertainty and degrees of freedom (scalars for every row alike, or arrays of length n)."""
+    standard uncertainty and degrees of freedom (scalars for every row alike, or arrays of length n);
+    ``correlations`` gives per-row coefficients that replace the budget's for those pairs (predictions of one
+    calibration line whose covariance changes with each row's value)."""
     import numpy as np
 
     model = budget.model
@@ -253,7 +256,12 @@ def evaluate_rows(budget: Budget, env: dict[str, Any], u: dict[str, Any], dof: d
     for row in np.flatnonzero(under.any(axis=0)):
         errors.setdefault(int(row), "a sensitivity coefficient times its standard uncertainty underflows to zero; "
                                     "express the inputs in units that bring the numbers nearer 1")
-    pairs = correlation_pairs(budget, names)
+    pairs: list[tuple[int, int, Any]] = list(correlation_pairs(budget, names))
+    if correlations:
+        index = {name: i for i, name in enumerate(names)}
+        given = {tuple(sorted((index[a], index[b]))): r for (a, b), r in correlations.items()
+                 if a in index and b in index and a != b}
+        pairs = [(i, j, given.pop((i, j), r)) for i, j, r in pairs] + [(i, j, r) for (i, j), r in given.items()]
     with np.errstate(all="ignore"):
         uc, nu, first, cross, scale = combine(np.where(np.isfinite(terms), terms, 0.0), dd, pairs)
     negative = (first + cross) < -1e-12 * first

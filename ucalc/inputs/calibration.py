@@ -400,3 +400,37 @@ def rows(name: str, raw: dict[str, Any], responses: Any) -> tuple[Any, Any, Any,
     errors = {int(i): f"'{name}': the sample (x0 = {x0[i]:.4g}) lies outside the calibrated range [{lo:g}, {hi:g}]"
               for i in np.flatnonzero(outside)}
     return x0, u, np.full(np.shape(x0), dof), errors
+
+
+def row_correlations(name: str, raw: dict[str, Any], responses: Any) -> dict[str, Any]:
+    """Per-row correlation of a batch row's prediction with the line's coefficients and its other readings.
+
+    Cov(x_row, theta) = J_row Cov(theta) and Cov(x_row, x_j) = J_row Cov(theta) J_j' with J = -g(x)/f'(x) (the
+    module docstring of :mod:`.calibration_fit`); a row stands in for the sample, the other readings keep theirs.
+    """
+    import numpy as np
+
+    from .calibration_fit import predict, predict_rows
+
+    cs = Spec.model_validate(raw).calibration
+    if cs.method == "standard_additions":
+        return {}
+    f = fit(cs)
+    span = (min(cs.standards), max(cs.standards))
+    p = 1 if cs.sample is None else len(cs.reading_values()[""])
+    with np.errstate(all="ignore"):
+        x0, u = predict_rows(f, np.asarray(responses, dtype=float), p, span)
+        jac = -f.powers(x0) / f.gradient(x0)[:, None]
+        cov_coef = jac @ f.cov
+        names = ("slope",) if cs.through_origin else COEFFICIENTS[:cs.order + 1]
+        out: dict[str, Any] = {f"{name}.{k}": np.clip(cov_coef[:, i] / (u * np.sqrt(f.cov[i, i])), -1.0, 1.0)
+                               for i, k in enumerate(names)}
+        others = {k: v for k, v in cs.reading_values().items() if k}
+        if others:
+            pred = predict(f, others, span)
+            u_other = np.sqrt(np.diag(pred.cov))
+            jac_other = -f.powers(pred.x0) / f.gradient(pred.x0)[:, None]
+            cross = cov_coef @ jac_other.T
+            for j, key in enumerate(pred.names):
+                out[f"{name}.{key}"] = np.clip(cross[:, j] / (u * u_other[j]), -1.0, 1.0)
+    return out
