@@ -75,7 +75,7 @@ def row_input(budget: Budget, name: str, raw: dict[str, Any] | None, column: Any
     errors = {int(i): f"no value for '{name}'" for i in np.flatnonzero(~np.isfinite(values))}
     q = budget.quantities[name]
     hook = _rows_hook(raw)
-    if hook is not None:
+    if hook is not None and raw is not None:
         x, u, dof, more = hook(name, raw, values)
         for i, reason in more.items():
             errors.setdefault(i, reason)
