@@ -74,3 +74,21 @@ def test_working_range_cli(tmp_path) -> None:
     res = runner.invoke(app, ["working-range", "budgets/qc/arsenic-levels.csv", "--column", "Pb", "--level-column",
                               "level"])
     assert res.exit_code == 2 and "no column 'Pb'" in res.output
+
+
+def test_fit_agrees_with_a_statsmodels_wls_of_the_variances() -> None:
+    # An independent estimator: statsmodels WLS of s_i^2 on (1, c_i^2) with weights nu_i / s_i^4
+    # (var(s^2) = 2 sigma^4 / nu). On the example's QC data both give u0 and b of the same size.
+    import statsmodels.api as sm
+
+    from ucalc.qc.range_fit import levels_from_data
+
+    levels = levels_from_data("budgets/qc/arsenic-levels.csv", "As", "level")
+    f = fit(levels)
+    c = np.array([lv.level for lv in levels])
+    s = np.array([lv.s for lv in levels])
+    nu = np.array([lv.dof for lv in levels])
+    wls = sm.WLS(s**2, np.column_stack([np.ones_like(c), c**2]), weights=nu / s**4).fit()
+    u0_wls, b_wls = math.sqrt(max(wls.params[0], 0.0)), math.sqrt(wls.params[1])
+    assert f.b == pytest.approx(b_wls, rel=0.15)
+    assert f.u0 == pytest.approx(u0_wls, abs=3 * f.u_u0)
