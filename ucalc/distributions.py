@@ -2,8 +2,9 @@
 
 Each object knows its standard uncertainty (the GUM path, JCGM 100 4.3) and draws zero-mean deviations for
 Monte Carlo (JCGM 101 6.4) from an explicit ``numpy.random.Generator``. Divisors: rectangular sqrt(3)
-(JCGM 100 4.3.7), triangular sqrt(6) (4.3.9), arcsine sqrt(2) (JCGM 101 6.4.6); a Type A component with finite
-degrees of freedom is a scaled and shifted t (JCGM 101 6.4.9.7).
+(JCGM 100 4.3.7), triangular sqrt(6) (4.3.9), arcsine sqrt(2) (JCGM 101 6.4.6), trapezoidal sqrt(6/(1 + beta^2))
+(JCGM 101 6.4.3), curvilinear trapezoid from u^2 = a^2/3 + d^2/9 (6.4.4); a Type A component with finite degrees
+of freedom is a scaled and shifted t (JCGM 101 6.4.9.7).
 """
 
 from __future__ import annotations
@@ -15,7 +16,8 @@ from typing import TYPE_CHECKING, Literal
 if TYPE_CHECKING:
     import numpy as np
 
-Shape = Literal["normal", "rectangular", "triangular", "arcsine", "t"]
+Shape = Literal["normal", "rectangular", "triangular", "arcsine", "t", "trapezoidal", "curvilinear_trapezoid"]
+HALF_WIDTH_SHAPES = ("rectangular", "triangular", "arcsine", "trapezoidal", "curvilinear_trapezoid")
 
 DIVISORS: dict[str, float] = {
     "rectangular": math.sqrt(3.0),
@@ -28,19 +30,31 @@ DIVISORS: dict[str, float] = {
 class Distribution:
     """A zero-centred distribution of deviations.
 
-    ``scale`` is the standard deviation for ``normal``, the half-width for ``rectangular``, ``triangular`` and
-    ``arcsine``, and the scale s/sqrt(n) for ``t`` (whose own standard deviation is larger, JCGM 101 6.4.9.4).
+    ``scale`` is the standard deviation for ``normal``, the half-width for ``rectangular``, ``triangular``,
+    ``arcsine``, ``trapezoidal`` and ``curvilinear_trapezoid``, and the scale s/sqrt(n) for ``t`` (whose own
+    standard deviation is larger, JCGM 101 6.4.9.4). ``param`` is scale-free: for ``trapezoidal`` beta, the ratio
+    of the top's half-width to the base's (6.4.3); for ``curvilinear_trapezoid`` d/a, the half-width d of the
+    interval in which each limit lies, as a fraction of the half-width a (6.4.4, d < a).
     """
 
     shape: Shape
     scale: float
     dof: float = math.inf
+    param: float = 0.0
 
     @property
     def standard_uncertainty(self) -> float:
-        """The standard uncertainty the GUM assigns (for ``t`` the scale itself, JCGM 100 4.2.3)."""
+        """The standard uncertainty the GUM assigns (for ``t`` the scale itself, JCGM 100 4.2.3).
+
+        Trapezoidal: a sqrt((1 + beta^2)/6) (JCGM 101 6.4.3.3); curvilinear trapezoid: sqrt(a^2/3 + d^2/9)
+        (6.4.4.3).
+        """
         if self.shape in DIVISORS:
             return self.scale / DIVISORS[self.shape]
+        if self.shape == "trapezoidal":
+            return self.scale * math.sqrt((1.0 + self.param**2) / 6.0)
+        if self.shape == "curvilinear_trapezoid":
+            return self.scale * math.sqrt(1.0 / 3.0 + self.param**2 / 9.0)
         return self.scale
 
     @property
@@ -50,6 +64,9 @@ class Distribution:
 
     @property
     def divisor(self) -> float:
+        """Half-width over standard uncertainty for the half-width shapes, 1 otherwise."""
+        if self.shape in ("trapezoidal", "curvilinear_trapezoid"):
+            return self.scale / self.standard_uncertainty if self.scale else 1.0
         return DIVISORS.get(self.shape, 1.0)
 
     def sample(self, n: int, rng: np.random.Generator) -> np.ndarray:
@@ -70,6 +87,17 @@ class Distribution:
             # into blocks gives the same values as one long draw
             pairs = rng.random((n, 2))
             x = pairs[:, 0] - pairs[:, 1]
+        elif self.shape == "trapezoidal":
+            # sum of two rectangular variates of half-widths (1 + beta)/2 and (1 - beta)/2 (JCGM 101 6.4.3.4)
+            pairs = rng.random((n, 2))
+            x = pairs[:, 0] * (1.0 + self.param)
+            x += pairs[:, 1] * (1.0 - self.param)
+            x -= 1.0
+        elif self.shape == "curvilinear_trapezoid":
+            # half-width w uniform on [a - d, a + d], then uniform on [-w, w] (JCGM 101 6.4.4.4)
+            pairs = rng.random((n, 2))
+            x = pairs[:, 1] * 2.0 - 1.0
+            x *= 1.0 + self.param * (1.0 - 2.0 * pairs[:, 0])
         elif self.shape == "arcsine":
             x = rng.random(n)
             x *= 2.0 * np.pi

@@ -34,6 +34,7 @@ MOMENT_CHUNK = 1 << 16
 FAR_FROM_GAUSSIAN_DOF = 10  # a t with fewer dof is named as a cause of a failed validation
 NOTABLE_SHARE = 0.05  # inputs below this share of u_c^2 are not named as causes
 NONLINEAR_SHARE = 0.02  # a curvature term (1/2)|f''| u^2 above this fraction of u_c is named
+MAX_CROSS_TERM_INPUTS = 30  # above this many uncertain inputs only the curvature in each input is examined
 
 Progress = Callable[[int, int], None]
 
@@ -520,16 +521,21 @@ def validate(gum: GumResult, mc: MonteCarloResult, digits: int = 2, budget: Budg
     delta = numerical_tolerance(gum.standard_uncertainty, digits)
     low, high = gum.value - gum.expanded_uncertainty, gum.value + gum.expanded_uncertainty
     prec = mc.precision
-    return Validation(digits, delta, abs(low - mc.interval[0]), abs(high - mc.interval[1]), (low, high),
-                      None if prec is None else 2.0 * prec.low, None if prec is None else 2.0 * prec.high,
-                      mc.trials, () if budget is None else departures(budget, gum))
+    v = Validation(digits, delta, abs(low - mc.interval[0]), abs(high - mc.interval[1]), (low, high),
+                   None if prec is None else 2.0 * prec.low, None if prec is None else 2.0 * prec.high, mc.trials)
+    if budget is None or v.verdict == "passed":
+        return v
+    import dataclasses
+
+    return dataclasses.replace(v, causes=departures(budget, gum))
 
 
 def departures(budget: Budget, gum: GumResult) -> tuple[str, ...]:
     """What makes the GUM's Gaussian (or t) output an approximation here (JCGM 101 5.7, 8.1).
 
     Inputs with at least 5 % of u_c^2 whose distribution is far from Gaussian (a t with few dof, rectangular,
-    arcsine, trapezoidal), and inputs whose curvature term (1/2)|d2f/dx2| u^2 exceeds 2 % of u_c.
+    arcsine, trapezoidal), inputs whose curvature term (1/2)|d2f/dx2| u^2 and pairs whose cross term
+    |d2f/dxi dxj| u_i u_j exceeds 2 % of u_c (the second-order terms of JCGM 100 5.1.2 note).
     """
     shares = {c.input: c.variance_share for c in gum.contributions}
     out: list[str] = []
@@ -552,17 +558,23 @@ def departures(budget: Budget, gum: GumResult) -> tuple[str, ...]:
             out.append(f"input '{name}' {verb} {' and '.join(shapes)} ({shares[name]:.0%} of u_c²)")
     env = {n: budget.quantities[n].value for n in budget.model.inputs}
     uc = gum.standard_uncertainty
-    for name in budget.model.inputs:
-        u = budget.quantities[name].standard_uncertainty
-        if u == 0:
-            continue
-        try:
-            curvature = 0.5 * abs(float(budget.model.evaluate_tree(budget.model.derivative(name, name), env))) * u * u
-        except (ArithmeticError, ValueError):
-            continue
-        if math.isfinite(curvature) and curvature > NONLINEAR_SHARE * uc:
-            size = f"{curvature / uc:.0%} of u_c" if uc > 0 else "while u_c is zero"
-            out.append(f"the model is non-linear in '{name}' (curvature term (1/2)|∂²f/∂{name}²|u² is {size})")
+    uncertain = [n for n in budget.model.inputs if budget.quantities[n].standard_uncertainty > 0]
+    for i, a in enumerate(uncertain):
+        for b in uncertain[i:] if len(uncertain) <= MAX_CROSS_TERM_INPUTS else (a,):
+            try:
+                d2 = float(budget.model.evaluate_tree(budget.model.derivative(a, b), env))
+            except (ArithmeticError, ValueError):
+                continue
+            term = abs(d2) * budget.quantities[a].standard_uncertainty * budget.quantities[b].standard_uncertainty
+            term *= 0.5 if a == b else 1.0
+            if not (math.isfinite(term) and term > NONLINEAR_SHARE * uc):
+                continue
+            size = f"{term / uc:.0%} of u_c" if uc > 0 else "while u_c is zero"
+            if a == b:
+                out.append(f"the model is non-linear in '{a}' (curvature term (1/2)|∂²f/∂{a}²|u² is {size})")
+            else:
+                out.append(f"the model is non-linear in '{a}' and '{b}' together (cross term "
+                           f"|∂²f/∂{a}∂{b}|·u·u is {size})")
     return tuple(out)
 
 

@@ -2,7 +2,9 @@
 
 A component gives exactly one of ``standard`` (u itself), ``expanded`` with ``k`` (u = U/k, JCGM 100 4.3.3), or
 ``half_width`` with a distribution (u = a/divisor, JCGM 100 4.3.7 and 4.3.9), optionally with ``dof`` and with
-``relative: true`` (the number is a fraction of the quantity's value).
+``relative: true`` (the number is a fraction of the quantity's value). A trapezoid takes ``beta`` (JCGM 101
+6.4.3); rectangular limits that are themselves inexact, each known to within ±``limit_spread``, give a
+curvilinear trapezoid (6.4.4).
 """
 
 from __future__ import annotations
@@ -13,7 +15,7 @@ from typing import Literal
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from ..budget.definitions import Component
-from ..distributions import DIVISORS, Distribution
+from ..distributions import HALF_WIDTH_SHAPES, Distribution
 
 
 class ComponentSpec(BaseModel):
@@ -26,7 +28,10 @@ class ComponentSpec(BaseModel):
     expanded: float | None = Field(default=None, gt=0)
     k: float | None = Field(default=None, gt=0)
     half_width: float | None = Field(default=None, gt=0)
-    distribution: Literal["normal", "rectangular", "triangular", "arcsine"] | None = None
+    distribution: Literal["normal", "rectangular", "triangular", "arcsine", "trapezoidal",
+                          "curvilinear_trapezoid"] | None = None
+    beta: float | None = Field(default=None, ge=0, le=1)
+    limit_spread: float | None = Field(default=None, gt=0)
     dof: float | None = Field(default=None, ge=1, allow_inf_nan=True)  # .inf: infinitely many
     relative: bool = False
     type: Literal["A", "B"] | None = None
@@ -44,8 +49,22 @@ class ComponentSpec(BaseModel):
             raise ValueError("'expanded' needs its coverage factor 'k'")
         if self.k is not None and self.expanded is None:
             raise ValueError("'k' belongs with 'expanded'")
-        if self.half_width is not None and self.distribution not in DIVISORS:
-            raise ValueError("'half_width' needs 'distribution': rectangular, triangular or arcsine")
+        if self.half_width is not None and self.distribution not in HALF_WIDTH_SHAPES:
+            raise ValueError("'half_width' needs 'distribution': rectangular, triangular, arcsine, trapezoidal or "
+                             "curvilinear_trapezoid")
+        if (self.beta is None) != (self.distribution != "trapezoidal"):
+            raise ValueError("'beta' (top half-width over base half-width, 0 to 1) goes with, and only with, "
+                             "distribution 'trapezoidal'")
+        if self.distribution == "curvilinear_trapezoid" and self.limit_spread is None:
+            raise ValueError("distribution 'curvilinear_trapezoid' needs 'limit_spread', the half-width of the "
+                             "interval in which each limit lies")
+        if self.limit_spread is not None:
+            if self.distribution not in ("rectangular", "curvilinear_trapezoid"):
+                raise ValueError("'limit_spread' goes with a rectangular (or curvilinear_trapezoid) 'half_width'")
+            assert self.half_width is not None
+            if self.limit_spread >= self.half_width:
+                raise ValueError(f"'limit_spread' ({self.limit_spread:g}) must be smaller than 'half_width' "
+                                 f"({self.half_width:g})")
         if self.half_width is None and self.distribution not in (None, "normal"):
             raise ValueError(f"distribution '{self.distribution}' goes with 'half_width'")
         return self
@@ -75,9 +94,16 @@ def build_component(spec: ComponentSpec, value: float, unit: str) -> Component:
     else:
         assert spec.half_width is not None and spec.distribution is not None
         a = spec.half_width * scale
-        dist = Distribution(spec.distribution, a, dof)
-        divisor = {"rectangular": "sqrt(3)", "triangular": "sqrt(6)", "arcsine": "sqrt(2)"}[spec.distribution]
-        origin = f"half-width {_fmt(spec.half_width)}{unit_text}{where}, {spec.distribution}, divisor {divisor}"
+        if spec.limit_spread is not None:
+            ratio = spec.limit_spread / spec.half_width
+            dist = Distribution("curvilinear_trapezoid", a, dof, ratio)
+            shape = f"curvilinear trapezoid, limits inexact by ±{_fmt(spec.limit_spread)}{unit_text}"
+        else:
+            dist = Distribution(spec.distribution, a, dof, spec.beta or 0.0)
+            shape = spec.distribution + (f", beta {_fmt(spec.beta)}" if spec.beta is not None else "")
+        divisor = {"rectangular": "sqrt(3)", "triangular": "sqrt(6)", "arcsine": "sqrt(2)"}.get(
+            dist.shape, _fmt(dist.divisor))
+        origin = f"half-width {_fmt(spec.half_width)}{unit_text}{where}, {shape}, divisor {divisor}"
         kind = spec.type or "B"
     if spec.note:
         origin += f"; {spec.note}"

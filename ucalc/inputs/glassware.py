@@ -3,7 +3,8 @@
 Built-in tolerances: one-mark pipettes (ISO 648), one-mark volumetric flasks (ISO 1042), burettes (ISO 385) and
 piston-operated pipettes (ISO 8655-2, maximum permissible systematic and random errors). A tolerance is taken as
 triangular by default, as EURACHEM/CITAC CG4 does for glassware (A1.4); the budget may choose another shape.
-Temperature: the volume of water changes by 2.1e-4 /K, over the stated span, rectangular (CG4 A1.4).
+Temperature: the volume of water changes by 2.1e-4 /K, over the stated span, rectangular (CG4 A1.4); where the
+span is itself known only to within ±``temperature_span_spread`` K, a curvilinear trapezoid (JCGM 101 6.4.4).
 """
 
 from __future__ import annotations
@@ -49,6 +50,7 @@ class GlasswareSpec(BaseModel):
     tolerance: float | None = Field(default=None, gt=0)
     distribution: Literal["triangular", "rectangular", "normal"] = "triangular"
     temperature_span: float | None = Field(default=None, ge=0)
+    temperature_span_spread: float | None = Field(default=None, gt=0)
     repeatability: float | None = Field(default=None, gt=0)
     repeatability_dof: float | None = Field(default=None, ge=1, allow_inf_nan=True)
     unit: str | None = Field(default=None, max_length=100)
@@ -59,6 +61,9 @@ class GlasswareSpec(BaseModel):
             raise ValueError("give either 'class' or 'tolerance', not both")
         if self.class_ is None and self.tolerance is None:
             raise ValueError("give the glassware 'class' (A or B) or its 'tolerance'")
+        if self.temperature_span_spread is not None and not (
+                self.temperature_span and self.temperature_span_spread < self.temperature_span):
+            raise ValueError("'temperature_span_spread' needs a 'temperature_span' larger than it")
         return self
 
 
@@ -126,9 +131,16 @@ def components(spec: GlasswareSpec, unit: str) -> tuple[tuple[Component, ...], l
         working.append(f"{spec.item} {nominal:g} {unit}, tolerance ±{tol:.4g} {unit} ({source})")
     if spec.temperature_span:
         half = nominal * WATER_EXPANSION * spec.temperature_span
-        comps.append(Component("temperature", Distribution("rectangular", half), "B",
-                               f"{nominal:g} {unit} × 2.1e-4 /K × {spec.temperature_span:g} K = ±{half:.4g} {unit}, "
-                               "rectangular, divisor sqrt(3)"))
+        text = f"{nominal:g} {unit} × 2.1e-4 /K × {spec.temperature_span:g} K = ±{half:.4g} {unit}"
+        if spec.temperature_span_spread:
+            ratio = spec.temperature_span_spread / spec.temperature_span
+            dist = Distribution("curvilinear_trapezoid", half, param=ratio)
+            text += (f", span known to ±{spec.temperature_span_spread:g} K: curvilinear trapezoid (JCGM 101 6.4.4), "
+                     f"divisor {dist.divisor:.4g}")
+        else:
+            dist = Distribution("rectangular", half)
+            text += ", rectangular, divisor sqrt(3)"
+        comps.append(Component("temperature", dist, "B", text))
     if spec.repeatability:
         dof = spec.repeatability_dof or math.inf
         comps.append(Component("filling repeatability", Distribution("normal" if math.isinf(dof) else "t",

@@ -37,7 +37,7 @@ pretty_unit = units.display
 
 def _divisor(c: Any) -> str:
     shape = c.distribution.shape
-    return {"rectangular": "√3", "triangular": "√6", "arcsine": "√2"}.get(shape, "1")
+    return {"rectangular": "√3", "triangular": "√6", "arcsine": "√2"}.get(shape, num(c.distribution.divisor, 4))
 
 
 def _limits_note(budget: Budget, unit: str) -> list[str]:
