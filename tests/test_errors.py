@@ -57,7 +57,7 @@ def test_good_budget_loads() -> None:
          "'half_width' (with 'distribution'); got standard, expanded"),
         ("distribution: rectangular", "distribution: uniform",
          "b.yaml:15:67: input 'P': components[0].distribution: must be one of 'normal', 'rectangular', "
-         "'triangular' or 'arcsine' (got 'uniform')"),
+         "'triangular', 'arcsine', 'trapezoidal' or 'curvilinear_trapezoid' (got 'uniform')"),
         ("  k = m / V", "  k = m / VV",
          "b.yaml:5:11: model line 'k': unknown name 'VV'; did you mean 'V'?"),
         ("  k = m / V\n  c = k * P", "  c = k * P\n  k = m / V",
