@@ -216,3 +216,42 @@ def test_the_python_interface_names_its_parameters(write_budget: Any) -> None:
     with pytest.raises(OptionError) as option:
         ucalc.batch(budget, pd.DataFrame({"m": [100.0]}), maps={"mass": "m"})
     assert str(option.value) == "maps: 'mass' is not an input of the budget; inputs are P, V, m"
+
+
+CORRELATED = GOOD + "correlations:\n  - {between: [m, V], r: 0.2}\n"
+
+
+@pytest.mark.parametrize(
+    ("old", "new", "expected"),
+    [
+        # a tab after a colon, a missing space after a colon, a key out of line: the parser's words plus the fix
+        ("title: t", "title:\tt",
+         "b.yaml:2:7: YAML: found character '\\t' that cannot start any token; a tab follows a colon; put a space "
+         "after ':' instead"),
+        ("    value: 0.9999", "    value:0.9999",
+         "b.yaml:15:15: YAML: mapping values are not allowed here; a space is missing after the colon of "
+         "'value:'; write 'value: ' and then the value"),
+        ("    value: 0.9999", "     value: 0.9999",
+         "b.yaml:15:5: YAML: expected <block end>, but found '<block mapping start>'; check the indentation: keys "
+         "of one mapping start in the same column, and a nested block is indented further than its key (spaces "
+         "only)"),
+        # a decimal comma: the value is not a number, and the fix is the decimal point
+        ("    value: 0.9999", "    value: 0,9999",
+         "b.yaml:14:12: input 'P': value: '0,9999' is not a number; write it with a decimal point: 0.9999"),
+        ("r: 0.2", "r: 0,2",  # inside {...} the comma splits the number into two entries
+         "b.yaml:22:28: unknown key '2': a number written with a decimal comma splits in two inside {...} (',2' "
+         "became a key); write the decimal point '.'"),
+        # "did you mean" for a misspelt input in correlations
+        ("between: [m, V]", "between: [m, VV]",
+         "b.yaml:22:19: correlation 1: unknown input 'VV'; did you mean 'V'?"),
+    ],
+)
+def test_messages_say_how_to_fix(old: str, new: str, expected: str) -> None:
+    assert old in CORRELATED
+    assert errors_of(CORRELATED.replace(old, new)) == [expected]
+
+
+def test_a_failed_input_gives_no_follow_on_errors() -> None:
+    # 'V' fails its own validation; the correlation and the model line naming it must not add "unknown" errors
+    text = CORRELATED.replace("half_width: 0.1, distribution: triangular", "half_width: -0.1, distribution: triangular")
+    assert errors_of(text) == ["b.yaml:20:35: input 'V': components[0].half_width: must be greater than 0 (got -0.1)"]

@@ -87,6 +87,9 @@ def _rule(err: dict[str, Any], valid: list[str]) -> str:
     field = str(err["loc"][-1]) if err["loc"] else ""
     if kind == "missing":
         return f"missing key '{field}'"
+    if kind == "extra_forbidden" and field.isdigit():
+        return (f"unknown key '{field}': a number written with a decimal comma splits in two inside {{...}} "
+                f"(',{field}' became a key); write the decimal point '.'")
     if kind == "extra_forbidden":
         close = difflib.get_close_matches(field, valid, n=1)
         hint = f"; did you mean '{close[0]}'?" if close else (f"; valid keys: {', '.join(valid)}" if valid else "")
@@ -97,6 +100,9 @@ def _rule(err: dict[str, Any], valid: list[str]) -> str:
         key, words = bound[kind]
         return f"must be {words} {ctx.get(key):g} (got {got!r})"
     if kind in ("float_parsing", "float_type", "int_parsing", "int_type", "int_from_float"):
+        if isinstance(got, str) and re.fullmatch(r"\s*[-+]?\d*,\d+\s*", got):
+            fixed = got.strip().replace(",", ".")
+            return f"{got!r} is not a number; write it with a decimal point: {fixed}"
         return f"must be a number (got {got!r})"
     if kind == "finite_number":
         return "must be a finite number"
@@ -209,7 +215,7 @@ def _build(doc: Document) -> Budget:
     origins = dict(built.origins)
     raw_corr = top.get("correlations")
     if isinstance(raw_corr, list):
-        stated = _build_correlations(raw_corr, quantities, doc, errors)
+        stated = _build_correlations(raw_corr, quantities, doc, errors, failed)
         correlations.update(stated)
         origins.update({pair: "stated in the budget ('correlations')" for pair in stated})
 
@@ -554,8 +560,10 @@ def _build_model(
 
 
 def _build_correlations(
-    raw: list[Any], quantities: dict[str, Quantity], doc: Document, errors: list[BudgetError]
+    raw: list[Any], quantities: dict[str, Quantity], doc: Document, errors: list[BudgetError],
+    failed: set[str] | frozenset[str] = frozenset(),
 ) -> dict[tuple[str, str], float]:
+    """Stated correlations; an input that failed validation (already reported) is skipped, not called unknown."""
     import numpy as np
 
     out: dict[tuple[str, str], float] = {}
@@ -567,9 +575,14 @@ def _build_correlations(
         except ValidationError:
             continue  # reported by the top-level validation
         a, b = spec.between
+        if a in failed or b in failed:
+            continue
         bad = [i for i, n in enumerate((a, b)) if n not in quantities]
         if bad:
-            errors.append(BudgetError(f"unknown input '{(a, b)[bad[0]]}'",
+            name = (a, b)[bad[0]]
+            close = difflib.get_close_matches(name, list(quantities), n=1)
+            hint = f"; did you mean '{close[0]}'?" if close else ""
+            errors.append(BudgetError(f"unknown input '{name}'{hint}",
                                       location=doc.locate((*path, "between", bad[0])), subject=subject))
             continue
         if a == b:

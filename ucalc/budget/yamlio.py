@@ -104,7 +104,8 @@ def parse_yaml(text: str, file: str) -> Document:
         if "duplicate key" in problem:
             problem = problem.split(" with value")[0]
         where = (mark.line + 1, mark.column + 1) if mark else (0, 0)
-        _fail(f"YAML: {problem}", file, *where)
+        hint = syntax_hint(problem, text, where[0])
+        _fail(f"YAML: {problem}" + (f"; {hint}" if hint else ""), file, *where)
     except YAMLError as exc:
         _fail(f"YAML: {str(exc).splitlines()[0] if str(exc) else type(exc).__name__}", file)
     except RecursionError:
@@ -115,6 +116,29 @@ def parse_yaml(text: str, file: str) -> Document:
     counter = [0]
     doc.data = _plain(raw, (), doc, counter, 0)
     return doc
+
+
+_NO_SPACE = re.compile(r"^\s*-?\s*([A-Za-z_][\w.]*):(?=[^\s:/])")
+
+
+def syntax_hint(problem: str, text: str, line: int) -> str:
+    """How to fix the common slips behind a YAML parser message: a tab after a colon, a missing space after a
+    colon, an indentation that does not line up (the parser's own words name none of them)."""
+    lines = text.splitlines()
+    near = [lines[n - 1] for n in (line, line - 1) if 0 < n <= len(lines)]
+    if "'\t'" in problem or "\\t" in problem:
+        if any(re.search(r":\t", t) for t in near):
+            return "a tab follows a colon; put a space after ':' instead"
+        return "a tab is not allowed here; use spaces"
+    for t in near:
+        m = _NO_SPACE.match(t)
+        if m:
+            return f"a space is missing after the colon of '{m.group(1)}:'; write '{m.group(1)}: ' and then the value"
+    if any(words in problem for words in ("block end", "expected <block", "mapping values are not allowed",
+                                          "could not find expected ':'", "did not find expected key")):
+        return ("check the indentation: keys of one mapping start in the same column, and a nested block is "
+                "indented further than its key (spaces only)")
+    return ""
 
 
 def _plain(node: Any, path: PathKey, doc: Document, counter: list[int], depth: int) -> Any:
