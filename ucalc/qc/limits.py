@@ -104,7 +104,7 @@ def from_line(a: float, b: float, s: float, x: Sequence[float], dof: float, read
                f"x_C = t sigma_x = {t:.4g} x {sigma:.4g} = {t * sigma:.4g}; x_D = delta sigma_x = {d:.4g} x "
                f"{sigma:.4g} = {d * sigma:.4g}",
                f"LOQ = 10 sigma_x = {10 * sigma:.4g} (common practice)")
-    return DetectionLimits(d * sigma, 10 * sigma, t * sigma, "ISO 11843-2, calibration line", "calibration line",
+    return DetectionLimits(d * sigma, 10 * sigma, t * sigma, "ISO 11843-2", "the calibration line",
                            working)
 
 
