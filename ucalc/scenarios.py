@@ -10,11 +10,12 @@ from __future__ import annotations
 
 import copy
 import difflib
-import importlib
-from collections.abc import Callable
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from .errors import BudgetError, BudgetErrors
+
+if TYPE_CHECKING:
+    from .inputs.base import InputModel
 
 Action = tuple[str, dict[str, Any]]  # (what it does, the new raw input mapping)
 
@@ -32,10 +33,10 @@ def parse_value(text: str) -> Any:
     return text if value is None else value
 
 
-def _module(raw: dict[str, Any]) -> Any:
-    from .inputs.base import REGISTRY, model_key
+def _model(raw: dict[str, Any]) -> InputModel:
+    from .inputs.base import model_for
 
-    return importlib.import_module(f"ucalc.inputs.{REGISTRY[model_key(raw)]}")
+    return model_for(raw)
 
 
 def _leaves(node: Any, prefix: str = "") -> list[str]:
@@ -55,12 +56,10 @@ def _leaves(node: Any, prefix: str = "") -> list[str]:
 def set_field(raw: dict[str, Any], field: str, value: Any) -> dict[str, Any]:
     """A copy of one input's raw mapping with ``field`` set to ``value``; ValueError lists valid fields."""
     new = copy.deepcopy(raw)
-    module = _module(new)
-    hook: Callable[[dict[str, Any], str, Any], dict[str, Any] | None] | None = getattr(module, "set_field", None)
-    if hook is not None:
-        changed = hook(new, field, value)
-        if changed is not None:
-            return changed
+    model = _model(new)
+    changed = model.set_field(new, field, value)
+    if changed is not None:
+        return changed
     parts = field.split(".")
     candidates = [parts] + [[key, *parts] for key, v in new.items() if isinstance(v, dict)]
     for path in candidates:
@@ -74,24 +73,23 @@ def set_field(raw: dict[str, Any], field: str, value: Any) -> dict[str, Any]:
                 node = None
                 break
         last = path[-1]
-        if isinstance(node, dict) and (last in node or (len(path) > 1 and _allowed_new_key(module, path))):
+        if isinstance(node, dict) and (last in node or (len(path) > 1 and _allowed_new_key(model, path))):
             node[last] = value
             return new
         if isinstance(node, list) and last.isdigit() and int(last) < len(node):
             node[int(last)] = value
             return new
-    valid = sorted(set(_leaves(new)) | set(getattr(module, "VIRTUAL_FIELDS", ())))
+    valid = sorted(set(_leaves(new)) | set(model.settable))
     close = difflib.get_close_matches(field, valid, n=1)
     hint = f"did you mean '{close[0]}'? " if close else ""
     raise ValueError(f"unknown field '{field}'; {hint}valid fields: {', '.join(valid)}")
 
 
-def _allowed_new_key(module: Any, path: list[str]) -> bool:
+def _allowed_new_key(model: InputModel, path: list[str]) -> bool:
     """Whether ``path`` names an optional key of the input model's block that the budget left out."""
-    spec = getattr(module, "Spec", None)
-    if spec is None or len(path) != 2:
+    if len(path) != 2:
         return False
-    block = spec.model_fields.get(path[0])
+    block = model.Spec.model_fields.get(path[0])
     inner = getattr(block, "annotation", None)
     fields = getattr(inner, "model_fields", {})
     aliases = {f.alias for f in fields.values() if f.alias}
@@ -128,6 +126,4 @@ def actions_for(raw: dict[str, Any]) -> list[Action]:
     use, which changes with the item)."""
     if "use" in raw:
         return []
-    module = _module(raw)
-    hook = getattr(module, "actions", None)
-    return list(hook(copy.deepcopy(raw))) if hook else []
+    return list(_model(raw).actions(copy.deepcopy(raw)))

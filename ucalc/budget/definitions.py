@@ -62,7 +62,7 @@ class Quantity:
     unit: str = ""
     components: tuple[Component, ...] = ()
     description: str = ""
-    model: str = "direct"
+    model: str = ""  # the key of the input model that made it (recorded by the loader)
     working: tuple[str, ...] = ()
     location: Location | None = None
     dof_override: float | None = None

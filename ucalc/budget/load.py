@@ -326,7 +326,7 @@ def _build_inputs(raw_inputs: Any, doc: Document, errors: list[BudgetError]) -> 
 
 def _build_input(name: str, raw: Any, doc: Document, errors: list[BudgetError], out: _Inputs) -> None:
     """Validate one input with its input model and add what it derives to ``out``."""
-    from ..inputs.base import get_model, model_key
+    from ..inputs.base import model_for
 
     subject = f"input '{name}'"
     path: PathKey = ("inputs", name)
@@ -335,11 +335,11 @@ def _build_input(name: str, raw: Any, doc: Document, errors: list[BudgetError], 
                                   location=doc.locate(path), subject=subject))
         return
     out.raw[name] = raw
-    module = get_model(model_key(raw))
+    model = model_for(raw)
     try:
-        spec = module.Spec.model_validate(raw)
+        spec = model.Spec.model_validate(raw)
     except ValidationError as exc:
-        errors.extend(validation_errors(exc, module.Spec, doc, path, subject))
+        errors.extend(validation_errors(exc, model.Spec, doc, path, subject))
         return
     unit_text = getattr(spec, "unit", None)
     try:
@@ -351,7 +351,7 @@ def _build_input(name: str, raw: Any, doc: Document, errors: list[BudgetError], 
         errors.append(BudgetError(exc.rule, location=doc.locate((*path, "unit")), subject=subject))
         return
     try:
-        derived = module.derive(name, spec, doc.locate(path, key=True))
+        derived = model.build(name, spec, doc.locate(path, key=True))
     except (ValueError, ArithmeticError) as exc:
         location = getattr(exc, "location", None) or doc.locate(path, key=True)
         errors.append(BudgetError(str(exc), location=location, subject=subject))
@@ -376,7 +376,7 @@ def _build_input(name: str, raw: Any, doc: Document, errors: list[BudgetError], 
         out.details[name] = derived.details
     if derived.expression:
         out.lines.append((name, derived.expression, doc.locate(path, key=True)))
-        out.working[name] = (getattr(module, "__name__", "").rsplit(".", 1)[-1], derived.working)
+        out.working[name] = (model.key, derived.working)
     out.warnings += tuple(f"input '{name}': {w}" for w in derived.warnings)
 
 

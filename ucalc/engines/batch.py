@@ -10,7 +10,6 @@ row by Welch-Satterthwaite over the components (JCGM 100 G.4.1).
 
 from __future__ import annotations
 
-import importlib
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -66,36 +65,26 @@ def rescaled(q: Quantity, values: Any) -> tuple[Any, Any]:
     return u.reshape(values.shape), dof.reshape(values.shape)
 
 
-def row_input(budget: Budget, name: str, raw: dict[str, Any] | None, column: Any) -> RowInput:
-    """Per-row estimate, u and dof of quantity ``name`` from a column of values (what the input model makes of
-    them: a calibration takes sample responses)."""
+def row_input(budget: Budget, name: str, own: tuple[Any, Any, Any, dict[int, str], dict[str, Any]] | None,
+              column: Any) -> RowInput:
+    """Per-row estimate, u and dof of quantity ``name`` from a column of values.
+
+    ``own`` is what the input's model makes of the column, as (estimates, u, dof, errors by row, per-row
+    correlations with other quantities) (a calibration takes sample responses); None applies the rule of
+    :func:`rescaled` to the column's values.
+    """
     import numpy as np
 
     values = np.asarray(column, dtype=float)
     errors = {int(i): f"no value for '{name}'" for i in np.flatnonzero(~np.isfinite(values))}
     q = budget.quantities[name]
-    hook = _rows_hook(raw)
-    if hook is not None and raw is not None:
-        x, u, dof, more = hook(name, raw, values)
+    if own is not None:
+        x, u, dof, more, correlations = own
         for i, reason in more.items():
             errors.setdefault(i, reason)
-        correlate = getattr(_module(raw), "row_correlations", None)
-        return RowInput(name, x, u, errors, dof, correlate(name, raw, values) if correlate else {})
+        return RowInput(name, x, u, errors, dof, correlations)
     u, dof = rescaled(q, values)
     return RowInput(name, values, u, errors, dof)
-
-
-def _rows_hook(raw: dict[str, Any] | None) -> Any:
-    """The input model's own per-row rule ``rows(name, raw, values)``, if it has one."""
-    if not isinstance(raw, dict):
-        return None
-    return getattr(_module(raw), "rows", None)
-
-
-def _module(raw: dict[str, Any]) -> Any:
-    from ..inputs.base import REGISTRY, model_key
-
-    return importlib.import_module(f"ucalc.inputs.{REGISTRY[model_key(raw)]}")
 
 
 def propagate_rows(budget: Budget, rows: list[RowInput], n: int) -> BatchResult:

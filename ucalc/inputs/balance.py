@@ -16,7 +16,7 @@ from pydantic import BaseModel, ConfigDict, Field, model_validator
 from ..budget.definitions import Component, Quantity
 from ..distributions import Distribution
 from ..errors import Location
-from .base import Derived, InputSpec
+from .base import Action, Derived, InputModel, InputSpec
 
 
 class Weighings(BaseModel):
@@ -100,7 +100,7 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
     unit = spec.unit or "g"
     mass, comps, working = components(spec.balance, unit)
     q = Quantity(name=name, value=mass, unit=unit, components=comps, description=spec.description or "",
-                 model="balance", working=tuple(working), location=location)
+                 working=tuple(working), location=location)
     return Derived((q,))
 
 
@@ -114,3 +114,15 @@ def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
             changed = True
     return [("a balance with one more digit (readability and linearity / 10)", {**raw, "balance": block})] \
         if changed else []
+
+class Balance(InputModel):
+    """A mass from a balance: calibration, readability, repeatability, buoyancy."""
+
+    key = "balance"
+    Spec = Spec
+
+    def derive(self, name: str, spec: Any, location: Location) -> Derived:
+        return derive(name, spec, location)
+
+    def actions(self, raw: dict[str, Any]) -> list[Action]:
+        return actions(raw)

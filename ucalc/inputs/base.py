@@ -7,9 +7,11 @@ Each model lives in its own module of this package and is found by the key that 
 
 from __future__ import annotations
 
+import dataclasses
 import importlib
 from dataclasses import dataclass, field
-from typing import Any, ClassVar, Protocol
+from functools import cache
+from typing import Any, ClassVar
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
@@ -60,28 +62,66 @@ class InputSpec(BaseModel):
         return self
 
 
-class InputModel(Protocol):
-    """A module implementing an input model has a pydantic ``Spec`` and a ``derive`` function."""
-
-    Spec: type[BaseModel]
-
-    def derive(self, name: str, spec: Any, location: Location) -> Derived: ...
+Action = tuple[str, dict[str, Any]]  # (what it does, the input's new mapping)
+RowValues = tuple[Any, Any, Any, dict[int, str]]  # per-row estimates, u, dof (arrays) and errors by row
 
 
-# key that marks the model in a budget -> module in this package
+class InputModel:
+    """Base class of every input model: its key, its ``Spec``, ``derive`` and optional hooks with defaults.
+
+    A subclass sets ``key`` (the key that marks it in a budget, also the name of its module), ``Spec`` (the
+    pydantic model of the input's mapping) and overrides ``derive``; it overrides a hook only where it has
+    something to offer. The loader calls :meth:`build`, which records the model on every quantity it makes.
+    """
+
+    key: ClassVar[str] = ""
+    Spec: ClassVar[type[BaseModel]]
+    settable: ClassVar[tuple[str, ...]] = ()  # fields ``--set`` may change that are not keys of the mapping
+
+    def derive(self, name: str, spec: Any, location: Location) -> Derived:
+        """The input's quantities (the input itself first, named ``name``), correlations among them, warnings."""
+        raise NotImplementedError
+
+    def actions(self, raw: dict[str, Any]) -> list[Action]:
+        """Concrete improvement actions on the input's mapping, for ``ucalc improve`` (none by default)."""
+        return []
+
+    def set_field(self, raw: dict[str, Any], field: str, value: Any) -> dict[str, Any] | None:
+        """The mapping with one of :attr:`settable` set, or None when ``field`` is a plain key (the default)."""
+        return None
+
+    def rows(self, name: str, raw: dict[str, Any], values: Any) -> RowValues | None:
+        """Per-row (estimates, u, dof, errors by row) of the input for a column of values from a table of samples
+        (a calibration takes sample responses), or None for the default: the row's value is the estimate and
+        the components are rescaled (see :mod:`ucalc.engines.batch`)."""
+        return None
+
+    def row_correlations(self, name: str, raw: dict[str, Any], values: Any) -> dict[str, Any]:
+        """Per-row correlation coefficients of the rows' values (from :meth:`rows`) with other quantities of the
+        budget, by quantity name (none by default)."""
+        return {}
+
+    def build(self, name: str, spec: Any, location: Location) -> Derived:
+        """:meth:`derive`, with each quantity that no other model made marked as made by this one."""
+        derived = self.derive(name, spec, location)
+        marked = tuple(q if q.model else dataclasses.replace(q, model=self.key) for q in derived.quantities)
+        return dataclasses.replace(derived, quantities=marked)
+
+
+# key that marks an input model in a budget -> its class, in the module of the same name in this package
 REGISTRY: dict[str, str] = {
-    "components": "direct",
-    "glassware": "glassware",
-    "balance": "balance",
-    "certificate": "certificate",
-    "replicates": "replicates",
-    "recovery": "recovery",
-    "calibration": "calibration",
-    "dilution": "dilution",
-    "molar_mass": "molar_mass",
-    "reproducibility": "reproducibility",
-    "bias": "bias",
-    "working_range": "working_range",
+    "components": "Components",
+    "glassware": "Glassware",
+    "balance": "Balance",
+    "certificate": "Certificate",
+    "replicates": "Replicates",
+    "recovery": "Recovery",
+    "calibration": "Calibration",
+    "dilution": "Dilution",
+    "molar_mass": "MolarMass",
+    "reproducibility": "Reproducibility",
+    "bias": "Bias",
+    "working_range": "WorkingRange",
 }
 
 
@@ -91,6 +131,15 @@ def model_key(raw: dict[str, Any]) -> str:
     return present[0] if present else "components"
 
 
+@cache
 def get_model(key: str) -> InputModel:
-    module = importlib.import_module(f"{__package__}.{REGISTRY[key]}")
-    return module  # type: ignore[return-value]
+    """The input model registered under ``key``."""
+    cls = getattr(importlib.import_module(f"{__package__}.{key}"), REGISTRY[key])
+    model = cls()
+    assert isinstance(model, InputModel) and model.key == key, key
+    return model
+
+
+def model_for(raw: dict[str, Any]) -> InputModel:
+    """The input model of a raw input mapping."""
+    return get_model(model_key(raw))

@@ -30,7 +30,7 @@ from pydantic import BaseModel, ConfigDict, Field, model_validator
 from ..budget.definitions import Component, Quantity
 from ..distributions import Distribution
 from ..errors import Location
-from .base import Derived, InputSpec
+from .base import Action, Derived, InputModel, InputSpec
 from .certificate import CertificateSpec, component
 
 
@@ -252,7 +252,7 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
                   relative=bs.relative)
         for label, u, dof in parts if u > 0)
     q = Quantity(name=name, value=value, unit="" if bs.relative else (spec.unit or ""), components=comps,
-                 description=spec.description or "method and laboratory bias", model="bias",
+                 description=spec.description or "method and laboratory bias",
                  working=tuple(working), location=location)
     from ..qc import plain
 
@@ -266,3 +266,15 @@ def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
     if block.get("correct") is True or not estimate(BiasSpec.model_validate(block)).significant:
         return []
     return [("correct the results for the bias (correct: true)", {**raw, "bias": {**block, "correct": True}})]
+
+class Bias(InputModel):
+    """Method and laboratory bias from reference materials, proficiency rounds or spikes."""
+
+    key = "bias"
+    Spec = Spec
+
+    def derive(self, name: str, spec: Any, location: Location) -> Derived:
+        return derive(name, spec, location)
+
+    def actions(self, raw: dict[str, Any]) -> list[Action]:
+        return actions(raw)

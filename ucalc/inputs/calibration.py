@@ -21,7 +21,7 @@ from pydantic import BaseModel, ConfigDict, Field, field_validator, model_valida
 from ..budget.definitions import Component, Quantity
 from ..distributions import Distribution
 from ..errors import Location
-from .base import Derived, InputSpec
+from .base import Action, Derived, InputModel, InputSpec, RowValues
 from .internal_standard import DEFAULT_WINDOW, ReadingSignals, StandardSignals
 
 COEFFICIENTS = ("intercept", "slope", "quadratic")
@@ -210,7 +210,7 @@ def _derive(name: str, spec: Spec, location: Location) -> Derived:
     for k in coef_names:
         coef_q[k] = Quantity(f"{name}.{k}", coef[k], coef_units[k],
                              (Component("calibration fit", Distribution("t", u_coef[k], dof), "A", "least squares"),),
-                             description=f"calibration {k}", model="calibration", location=location)
+                             description=f"calibration {k}", location=location)
     for i, ki in enumerate(coef_names):
         for j in range(i + 1, len(coef_names)):
             kj = coef_names[j]
@@ -237,7 +237,7 @@ def _derive(name: str, spec: Spec, location: Location) -> Derived:
         comp = Component("calibration (prediction)", Distribution("t", u, dof), "A",
                          f"u(x) = {u:.4g} from the calibration line, dof {int(dof)}")
         quantities.append(Quantity(name, x0, unit, (comp,), description=spec.description or "",
-                                   model="calibration", working=tuple(working), location=location))
+                                   working=tuple(working), location=location))
         for k, cov_xk in (("intercept", (var_a - x0 * cov_ab) / b), ("slope", (cov_ab - x0 * var_b) / b)):
             correlations.append((name, f"{name}.{k}", _clip(cov_xk / (u * u_coef[k]))))
             origins.append(f"calibration '{name}': result from the fitted coefficients")
@@ -271,7 +271,7 @@ def _derive(name: str, spec: Spec, location: Location) -> Derived:
                 tuple(lines)
             quantities.append(Quantity(qname, x0, unit, (comp,),
                                        description=(spec.description or "") if key == "" else f"{label}",
-                                       model="calibration", working=own, location=location))
+                                       working=own, location=location))
             for j, k in enumerate(coef_names):
                 correlations.append((qname, f"{name}.{k}", _clip(float(pred.cov_coef[i, j]) / (u * u_coef[k]))))
                 origins.append(f"calibration '{name}': prediction from the fitted coefficients")
@@ -434,3 +434,26 @@ def row_correlations(name: str, raw: dict[str, Any], responses: Any) -> dict[str
             for j, key in enumerate(pred.names):
                 out[f"{name}.{key}"] = np.clip(cross[:, j] / (u * u_other[j]), -1.0, 1.0)
     return out
+
+
+class Calibration(InputModel):
+    """A value read off a straight-line (or quadratic) calibration."""
+
+    key = "calibration"
+    Spec = Spec
+    settable = VIRTUAL_FIELDS
+
+    def derive(self, name: str, spec: Any, location: Location) -> Derived:
+        return derive(name, spec, location)
+
+    def actions(self, raw: dict[str, Any]) -> list[Action]:
+        return actions(raw)
+
+    def set_field(self, raw: dict[str, Any], field: str, value: Any) -> dict[str, Any] | None:
+        return set_field(raw, field, value)
+
+    def rows(self, name: str, raw: dict[str, Any], values: Any) -> RowValues | None:
+        return rows(name, raw, values)
+
+    def row_correlations(self, name: str, raw: dict[str, Any], values: Any) -> dict[str, Any]:
+        return row_correlations(name, raw, values)

@@ -14,7 +14,7 @@ from pydantic import BaseModel, ConfigDict, Field, model_validator
 from ..budget.definitions import Component, Quantity
 from ..distributions import Distribution
 from ..errors import Location
-from .base import Derived, InputSpec
+from .base import Action, Derived, InputModel, InputSpec
 
 
 class CertificateSpec(BaseModel):
@@ -64,7 +64,7 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
     unit = spec.unit or ""
     comp = component(spec.certificate, unit)
     q = Quantity(name=name, value=spec.certificate.value, unit=unit, components=(comp,),
-                 description=spec.description or "", model="certificate",
+                 description=spec.description or "",
                  working=(f"certified value {spec.certificate.value:g}{' ' + unit if unit else ''}; {comp.origin}",),
                  location=location)
     return Derived((q,))
@@ -76,3 +76,15 @@ def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
     key = "expanded" if "expanded" in block else "half_width"
     block[key] = float(block[key]) / 2
     return [("a certificate with half the uncertainty", {**raw, "certificate": block})]
+
+class Certificate(InputModel):
+    """A value and its uncertainty from a certificate."""
+
+    key = "certificate"
+    Spec = Spec
+
+    def derive(self, name: str, spec: Any, location: Location) -> Derived:
+        return derive(name, spec, location)
+
+    def actions(self, raw: dict[str, Any]) -> list[Action]:
+        return actions(raw)

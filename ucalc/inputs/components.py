@@ -1,21 +1,25 @@
-"""Uncertainty components as a budget states them, and their standard uncertainties.
+"""The basic input: an estimate and its uncertainty components, as the budget states them.
 
-A component gives exactly one of ``standard`` (u itself), ``expanded`` with ``k`` (u = U/k, JCGM 100 4.3.3), or
-``half_width`` with a distribution (u = a/divisor, JCGM 100 4.3.7 and 4.3.9), optionally with ``dof`` and with
-``relative: true`` (the number is a fraction of the quantity's value). A trapezoid takes ``beta`` (JCGM 101
-6.4.3); rectangular limits that are themselves inexact, each known to within ±``limit_spread``, give a
-curvilinear trapezoid (6.4.4).
+The input's standard uncertainty is the root sum of squares of its components and its degrees of freedom follow
+from Welch-Satterthwaite over them (JCGM 100 G.4.1); an input with no components is an exact value. Other input
+models build their components with :func:`build_component`. A component gives exactly one of ``standard``
+(u itself), ``expanded`` with ``k`` (u = U/k, JCGM 100 4.3.3), or ``half_width`` with a distribution
+(u = a/divisor, JCGM 100 4.3.7 and 4.3.9), optionally with ``dof`` and with ``relative: true`` (the number is a
+fraction of the quantity's value). A trapezoid takes ``beta`` (JCGM 101 6.4.3); rectangular limits that are
+themselves inexact, each known to within ±``limit_spread``, give a curvilinear trapezoid (6.4.4).
 """
 
 from __future__ import annotations
 
 import math
-from typing import Literal
+from typing import Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
-from ..budget.definitions import Component
+from ..budget.definitions import Component, Quantity
 from ..distributions import HALF_WIDTH_SHAPES, Distribution
+from ..errors import Location
+from .base import Derived, InputModel
 
 
 class ComponentSpec(BaseModel):
@@ -108,3 +112,30 @@ def build_component(spec: ComponentSpec, value: float, unit: str) -> Component:
     if spec.note:
         origin += f"; {spec.note}"
     return Component(spec.name, dist, kind, origin, relative=spec.relative)
+
+
+class Spec(BaseModel):
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False, strict=True)
+
+    value: float
+    unit: str | None = Field(default=None, max_length=100)
+    description: str | None = None
+    components: list[ComponentSpec] = Field(default_factory=list, max_length=200)
+
+
+def derive(name: str, spec: Spec, location: Location) -> Derived:
+    unit = spec.unit or ""
+    components = tuple(build_component(c, spec.value, unit) for c in spec.components)
+    quantity = Quantity(name=name, value=spec.value, unit=unit, components=components,
+                        description=spec.description or "", location=location)
+    return Derived((quantity,))
+
+
+class Components(InputModel):
+    """An estimate with its uncertainty components (the input of a budget without another model's key)."""
+
+    key = "components"
+    Spec = Spec
+
+    def derive(self, name: str, spec: Any, location: Location) -> Derived:
+        return derive(name, spec, location)

@@ -14,7 +14,7 @@ from pydantic import BaseModel, ConfigDict, Field, ValidationError
 
 from ..budget.definitions import Quantity
 from ..errors import Location
-from .base import Derived, InputSpec, get_model, model_key
+from .base import Action, Derived, InputModel, InputSpec, model_for
 
 
 class Step(BaseModel):
@@ -48,17 +48,17 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
         item_units = []
         for role in ("aliquot", "final"):
             raw = getattr(step, role)
-            module = get_model(model_key(raw))
-            if str(getattr(module, "__name__", "")).endswith(".dilution"):
+            model = model_for(raw)
+            if model.key == Dilution.key:
                 raise ValueError(f"step {i} {role}: a dilution cannot contain a dilution")
             try:
-                item_spec = module.Spec.model_validate(raw)
+                item_spec = model.Spec.model_validate(raw)
             except ValidationError as exc:
                 first = exc.errors()[0]
                 where = ".".join(str(p) for p in first["loc"])
                 raise ValueError(f"step {i} {role}: {where + ': ' if where else ''}"
                                  f"{str(first['msg']).removeprefix('Value error, ')}") from None
-            derived = module.derive(part_name(name, i, role), item_spec, location)
+            derived = model.build(part_name(name, i, role), item_spec, location)
             quantities.extend(derived.quantities)
             correlations.extend(derived.correlations)
             warnings.extend(derived.warnings)
@@ -95,3 +95,16 @@ def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
             out.append((f"step {i + 1}: aliquot and final volume ×{pair[2]:g} (same factor)",
                         {**raw, "dilution": new_steps}))
     return out
+
+
+class Dilution(InputModel):
+    """A dilution factor from a chain of aliquots and final volumes."""
+
+    key = "dilution"
+    Spec = Spec
+
+    def derive(self, name: str, spec: Any, location: Location) -> Derived:
+        return derive(name, spec, location)
+
+    def actions(self, raw: dict[str, Any]) -> list[Action]:
+        return actions(raw)

@@ -17,7 +17,7 @@ from pydantic import BaseModel, ConfigDict, Field, model_validator
 from ..budget.definitions import Component, Quantity
 from ..distributions import Distribution
 from ..errors import Location
-from .base import Derived, InputSpec
+from .base import Action, Derived, InputModel, InputSpec
 
 WATER_EXPANSION = 2.1e-4  # 1/K, volume expansion coefficient of water near 20 °C  # common practice
 
@@ -154,7 +154,7 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
     unit = spec.unit or "mL"
     comps, working = components(spec.glassware, unit)
     q = Quantity(name=name, value=spec.glassware.nominal, unit=unit, components=comps,
-                 description=spec.description or "", model="glassware", working=tuple(working), location=location)
+                 description=spec.description or "", working=tuple(working), location=location)
     return Derived((q,))
 
 
@@ -196,3 +196,15 @@ def larger(raw: dict[str, Any], factor: float) -> dict[str, Any] | None:
     if size is None:
         return None
     return {**raw, "glassware": {**block, "nominal": float(block["nominal"]) * factor}}
+
+class Glassware(InputModel):
+    """A volume from volumetric glassware: tolerance class, temperature, filling."""
+
+    key = "glassware"
+    Spec = Spec
+
+    def derive(self, name: str, spec: Any, location: Location) -> Derived:
+        return derive(name, spec, location)
+
+    def actions(self, raw: dict[str, Any]) -> list[Action]:
+        return actions(raw)

@@ -11,14 +11,14 @@ two molar masses with an element in common (the lead fraction of a lead salt) is
 from __future__ import annotations
 
 import math
-from typing import ClassVar
+from typing import Any, ClassVar
 
 from pydantic import BaseModel, ConfigDict, Field
 
 from ..budget.definitions import Component, Quantity, welch_satterthwaite
 from ..distributions import Distribution
 from ..errors import Location
-from .base import Derived, InputSpec
+from .base import Derived, InputModel, InputSpec
 
 
 class AtomicWeight(BaseModel):
@@ -97,7 +97,7 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
         comps = (Component(f"atomic weight of {symbol}", Distribution("rectangular", half), "B",
                            f"±{half:g} g/mol ({source}), rectangular, divisor sqrt(3)"),) if half > 0 else ()
         quantities.append(Quantity(f"Ar.{symbol}", value, "g/mol", comps, description=f"atomic weight of {symbol}",
-                                   model="molar_mass", location=location))
+                                   location=location))
         terms.append(f"{n} * Ar.{symbol}")
         total += n * value
         working.append(f"{symbol} × {n}: {value:g} ± {half:g} g/mol ({source})")
@@ -112,3 +112,12 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
                "atoms": {symbol: {"count": n, "atomic_weight": q.value, "standard_uncertainty": q.standard_uncertainty}
                          for (symbol, n), q in zip(atoms.items(), quantities, strict=True)}}
     return Derived(tuple(quantities), expression=" + ".join(terms), working=tuple(working), details=details)
+
+class MolarMass(InputModel):
+    """A molar mass from a chemical formula and standard atomic weights."""
+
+    key = "molar_mass"
+    Spec = Spec
+
+    def derive(self, name: str, spec: Any, location: Location) -> Derived:
+        return derive(name, spec, location)

@@ -18,7 +18,7 @@ from pydantic import BaseModel, ConfigDict, Field
 from ..budget.definitions import Component, Quantity, welch_satterthwaite
 from ..distributions import Distribution
 from ..errors import Location
-from .base import Derived, InputSpec
+from .base import Action, Derived, InputModel, InputSpec
 from .certificate import CertificateSpec, component
 
 
@@ -96,7 +96,7 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
         else:
             working.append("no correction; R = 1 with u(R)")
     q = Quantity(name=name, value=value, unit="", components=tuple(comps), description=spec.description or "",
-                 model="recovery", working=tuple(working), location=location)
+                 working=tuple(working), location=location)
     return Derived((q,))
 
 
@@ -111,3 +111,15 @@ def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
     for label, better in certificate_actions({"certificate": block["reference"]}):
         out.append((f"reference material: {label}", {**raw, "recovery": {**block, "reference": better["certificate"]}}))
     return out
+
+class Recovery(InputModel):
+    """A recovery factor from spiked or reference samples."""
+
+    key = "recovery"
+    Spec = Spec
+
+    def derive(self, name: str, spec: Any, location: Location) -> Derived:
+        return derive(name, spec, location)
+
+    def actions(self, raw: dict[str, Any]) -> list[Action]:
+        return actions(raw)

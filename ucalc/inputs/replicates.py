@@ -17,7 +17,7 @@ from pydantic import BaseModel, ConfigDict, Field, model_validator
 from ..budget.definitions import Component, Quantity
 from ..distributions import Distribution
 from ..errors import Location
-from .base import Derived, InputSpec
+from .base import Action, Derived, InputModel, InputSpec
 
 
 class Pooled(BaseModel):
@@ -88,7 +88,7 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
     relative = bool(spec.replicates.pooled and spec.replicates.pooled.relative)
     comp = Component("repeatability", Distribution("t", u, dof), "A", working[-1], relative=relative)
     q = Quantity(name=name, value=mean, unit=spec.unit or "", components=(comp,),
-                 description=spec.description or "", model="replicates", working=tuple(working), location=location)
+                 description=spec.description or "", working=tuple(working), location=location)
     return Derived((q,))
 
 
@@ -124,3 +124,19 @@ def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
     spec = ReplicatesSpec.model_validate(raw["replicates"])
     n = len(spec.values) if spec.values is not None else (spec.pooled.n if spec.pooled else 1) or 1
     return [(f"{k * n} replicates instead of {n}", _as_pooled(raw, k * n)) for k in (2, 3)]
+
+class Replicates(InputModel):
+    """The mean of replicate results (Type A), alone or with a pooled deviation."""
+
+    key = "replicates"
+    Spec = Spec
+    settable = VIRTUAL_FIELDS
+
+    def derive(self, name: str, spec: Any, location: Location) -> Derived:
+        return derive(name, spec, location)
+
+    def actions(self, raw: dict[str, Any]) -> list[Action]:
+        return actions(raw)
+
+    def set_field(self, raw: dict[str, Any], field: str, value: Any) -> dict[str, Any] | None:
+        return set_field(raw, field, value)

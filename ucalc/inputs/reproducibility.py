@@ -22,14 +22,14 @@ import math
 import statistics
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import ClassVar, Literal
+from typing import Any, ClassVar, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from ..budget.definitions import Component, Quantity
 from ..distributions import Distribution
 from ..errors import Location
-from .base import Derived, InputSpec
+from .base import Derived, InputModel, InputSpec
 
 D2_PAIRS = 1.128  # mean range of two normal values in units of sigma, 2/sqrt(pi) (ISO 11352 / TR 537 appendix)
 
@@ -257,8 +257,18 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
         working.append("u(Rw) = sqrt(sum of the squares of the sources) (TR 537 4.4)")
     value, unit = (1.0, "") if rs.relative else (0.0, spec.unit or "")
     q = Quantity(name=name, value=value, unit=unit, components=tuple(comps),
-                 description=spec.description or "within-laboratory reproducibility", model="reproducibility",
+                 description=spec.description or "within-laboratory reproducibility",
                  working=tuple(working), location=location)
     from ..qc import plain
 
     return Derived((q,), details={"relative": rs.relative, "sources": plain(parts)})
+
+
+class Reproducibility(InputModel):
+    """Within-laboratory reproducibility from QC data."""
+
+    key = "reproducibility"
+    Spec = Spec
+
+    def derive(self, name: str, spec: Any, location: Location) -> Derived:
+        return derive(name, spec, location)

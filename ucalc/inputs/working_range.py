@@ -11,7 +11,7 @@ replaces x row by row, gives each row its own U. u0 and b are stated, or fitted 
 from __future__ import annotations
 
 import math
-from typing import ClassVar
+from typing import Any, ClassVar
 
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
@@ -19,7 +19,7 @@ from ..budget.definitions import Component, Quantity
 from ..budget.schema import check_name
 from ..distributions import Distribution
 from ..errors import Location
-from .base import Derived, InputSpec
+from .base import Derived, InputModel, InputSpec
 
 
 class _Block(BaseModel):
@@ -108,17 +108,27 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
     if u0 > 0:
         parts.append(Quantity(f"{name}.u0", 0.0, unit, (Component("absolute floor u0", dist(u0, dof_u0), "A",
                                                                   f"u0 = {u0:.4g}"),),
-                              description="reproducibility: absolute part", model="working_range",
+                              description="reproducibility: absolute part",
                               location=location))
     else:
         parts.append(Quantity(f"{name}.u0", 0.0, unit, (), description="reproducibility: absolute part (zero)",
-                              model="working_range", location=location))
+                              location=location))
     parts.append(Quantity(f"{name}.b", 0.0, "", (Component("relative part b", dist(b, dof_b), "A",
                                                            f"b = {b:.4g}"),) if b > 0 else (),
-                          description="reproducibility: relative part", model="working_range", location=location))
+                          description="reproducibility: relative part", location=location))
     working.append(f"{name} = {name}.u0 + {ws.at} * {name}.b: u = sqrt(u0^2 + (b {ws.at})^2)")
     from ..qc import plain
 
     details = plain({"at": ws.at, "u0": u0, "b": b, "dof_u0": dof_u0, "dof_b": dof_b})
     return Derived(tuple(parts), expression=f"{name}.u0 + {ws.at} * {name}.b", working=tuple(working),
                    details=details)
+
+
+class WorkingRange(InputModel):
+    """Reproducibility across the working range, u(c) = sqrt(u0^2 + (b c)^2)."""
+
+    key = "working_range"
+    Spec = Spec
+
+    def derive(self, name: str, spec: Any, location: Location) -> Derived:
+        return derive(name, spec, location)

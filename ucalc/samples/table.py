@@ -137,6 +137,20 @@ def _budget_limits(budget: Budget, options: BatchOptions, positions: Any, loq: A
     return {int(i): budget.limits.lod for i in positions}
 
 
+def _own_rows(budget: Budget, name: str, values: Any) -> tuple[Any, Any]:
+    """(what the input's model makes of a column of values, or None; the values) for :func:`row_input`."""
+    from ..inputs.base import model_for
+
+    raw = budget.raw_inputs.get(name)
+    if not isinstance(raw, dict):
+        return None, values
+    model = model_for(raw)
+    own = model.rows(name, raw, values)
+    if own is None:
+        return None, values
+    return (*own, model.row_correlations(name, raw, values)), values
+
+
 def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
               progress: Callable[[int, int], None] | None = None) -> tuple[Any, BatchSummary]:
     """The output table (input columns plus results) and a summary; ``source`` is a budget, a budget file or a
@@ -173,7 +187,7 @@ def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
         for start in range(0, len(positions), CHUNK):
             rows = positions[start:start + CHUNK]
             sub = frame.iloc[rows]
-            inputs = [row_input(budget, name, budget.raw_inputs.get(name), _numbers(sub, col))
+            inputs = [row_input(budget, name, *_own_rows(budget, name, _numbers(sub, col)))
                       for name, col in columns.items()]
             res = propagate_rows(budget, inputs, len(rows))
             low = np.flatnonzero(np.isfinite(loq[rows]) & (res.value < loq[rows]))
