@@ -197,8 +197,9 @@ def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
 
                 def make(v: Any, low_sub: Any = low_sub, name0: str = name0, budget: Budget = budget,
                          columns: dict[str, str] = columns) -> list[Any]:
-                    return [row_input(budget, name, budget.raw_inputs.get(name),
-                                      v if name == name0 else _numbers(low_sub, col)) for name, col in columns.items()]
+                    return [row_input(budget, name, *_own_rows(budget, name,
+                                                               v if name == name0 else _numbers(low_sub, col)))
+                            for name, col in columns.items()]
 
                 u_at_loq[rows[low]] = expanded_at(budget, make, _numbers(low_sub, col0), loq[rows[low]])
             results["value"][rows] = res.value
