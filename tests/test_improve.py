@@ -126,3 +126,116 @@ def test_improve_chart(tmp_path, write_budget) -> None:
     out = tmp_path / "plan.svg"
     r = runner.invoke(app, ["improve", str(write_budget(KNOWN)), "--chart", str(out)])
     assert r.exit_code == 0 and out.read_text(encoding="utf-8").startswith("<svg")
+
+
+def test_options_from_terms_equal_rebuilt_budgets() -> None:
+    # agreement test: improve computes each option from the budget's terms; the reference is the changed budget
+    # rebuilt from its data and propagated by `ucalc run` (JCGM 100 clause 5 and G.4.1)
+    import copy
+    import dataclasses
+
+    from ucalc.budget.load import build_budget
+    from ucalc.planning import improve
+    from ucalc.scenarios import actions_for
+    from ucalc.workflow import load_with_settings
+
+    for path in sorted(BUDGETS.glob("*.yaml")):
+        doc, budget = load_with_settings(path)
+        result = improve(doc, budget)
+        by_label = {(o.action, o.input): o.expanded_uncertainty for o in result.options if o.kind == "action"}
+        checked = 0
+        for top, raw in doc.data["inputs"].items():
+            if not isinstance(raw, dict):
+                continue
+            for label, new_raw in actions_for(raw):
+                found = [U for (action, _), U in by_label.items() if action == label]
+                if not found:
+                    continue
+                data = copy.deepcopy(doc.data)
+                data["inputs"][top] = new_raw
+                ref = propagate(build_budget(dataclasses.replace(doc, data=data))).expanded_uncertainty
+                assert any(U == pytest.approx(ref, rel=1e-11) for U in found), (path.name, top, label)
+                checked += 1
+        assert checked or not by_label
+
+
+MORE = """\
+ucalc: 1
+title: more data
+measurand: {symbol: c, unit: ug/L}
+model: 'c = x / R'
+coverage: {probability: 0.95}
+inputs:
+  x:
+    unit: ug/L
+    replicates: {values: [10.2, 9.7, 10.4, 9.9]}
+  R:
+    recovery:
+      found: [0.96, 1.01, 0.93, 0.99]
+      reference: {value: 1.0, expanded: 0.02, k: 2}
+"""
+
+
+def test_more_replicates_keep_s_and_take_the_new_dof(write_budget) -> None:
+    # JCGM 100 4.2.3: n' replicates with the observed s give u = s/sqrt(n') with n' - 1 dof (by hand, with the
+    # recovery term entered as its own u and dof); k = t_0.975 of the truncated nu_eff (G.4.1, G.6.4)
+    import statistics
+
+    from scipy import stats
+
+    from ucalc.workflow import load_with_settings
+
+    path = write_budget(MORE)
+    budget = load_with_settings(path, ["x.n=12"])[1]
+    result = propagate(budget)
+    xs = [10.2, 9.7, 10.4, 9.9]
+    s, mean = statistics.stdev(xs), statistics.fmean(xs)
+    r = budget.quantities["R"]
+    t_x, t_r = s / math.sqrt(12) / r.value, mean / r.value**2 * r.standard_uncertainty
+    nu = (t_x**2 + t_r**2) ** 2 / (t_x**4 / 11 + t_r**4 / r.dof)
+    assert budget.quantities["x"].dof == 11
+    assert result.expanded_uncertainty == pytest.approx(stats.t.ppf(0.975, math.floor(nu)) * math.hypot(t_x, t_r),
+                                                        rel=1e-12)
+    assert any("same scatter as observed" in w for w in budget.quantities["x"].working)
+
+
+def test_more_recovery_results_do_not_copy_the_data(write_budget) -> None:
+    # EURACHEM/CITAC CG4 7.7: u(R) = R sqrt((s/sqrt(n)/mean)^2 + (u_ref/ref)^2) with the found s and n = 8 planned
+    # results (dof 7 for the scatter term), not the s of the four results written twice
+    import statistics
+
+    from ucalc.planning import improve
+    from ucalc.workflow import load_with_settings
+
+    path = write_budget(MORE)
+    doc, budget = load_with_settings(path)
+    option = next(o for o in improve(doc, budget).options if o.action.startswith("8 results"))
+    found = [0.96, 1.01, 0.93, 0.99]
+    s, mean = statistics.stdev(found), statistics.fmean(found)
+    text = MORE.replace("""    recovery:
+      found: [0.96, 1.01, 0.93, 0.99]
+      reference: {value: 1.0, expanded: 0.02, k: 2}""", f"""    value: {mean!r}
+    components:
+      - {{name: scatter, standard: {mean * (s / math.sqrt(8) / mean)!r}, dof: 7}}
+      - {{name: reference, standard: {mean * 0.01!r}}}""")
+    ref = propagate(load_budget_text(text)).expanded_uncertainty
+    assert option.expanded_uncertainty == pytest.approx(ref, rel=1e-12)
+
+
+def test_zero_for_a_correlated_input_says_why_u_rises(write_budget) -> None:
+    # JCGM 100 5.2.2: R = a/b with r(a, b) = 0.9; the correlation term cancels variance, so u(a) = 0 raises U
+    text = ("ucalc: 1\ntitle: t\nmeasurand: {symbol: R}\nmodel: 'R = a / b'\ninputs:\n"
+            "  a: {value: 100, components: [{name: a, standard: 2}]}\n"
+            "  b: {value: 50, components: [{name: b, standard: 1}]}\n"
+            "correlations:\n  - {between: [a, b], r: 0.9}\n")
+    data = improve_json(write_budget(text))
+    zero = next(o for o in data["options"] if o["input"] == "a" and o["kind"] == "zero")
+    u_now = math.sqrt((2 / 50) ** 2 + (100 / 2500) ** 2 - 2 * 0.9 * (2 / 50) * (100 / 2500))
+    assert data["expanded_uncertainty"] == pytest.approx(1.959963984540054 * u_now, rel=1e-12)
+    assert zero["expanded_uncertainty"] == pytest.approx(1.959963984540054 * 100 / 2500, rel=1e-12)
+    assert "correlation" in zero["note"] and "'b'" in zero["note"]
+
+
+def test_plan_says_which_search_it_used(write_budget) -> None:
+    data = improve_json(write_budget(KNOWN), "--target", "0.1")
+    assert data["target"]["searched"].startswith(("exhaustive", "greedy", "the budget"))

@@ -641,3 +641,15 @@ def _check_at_estimate(
             errors.append(BudgetError(
                 f"the sensitivity coefficient for '{name}' is not finite at the estimates",
                 location=last.location, subject=f"model line '{last.name}'"))
+
+
+def derive_input(doc: Document, name: str, raw: Any) -> tuple[dict[str, Quantity], dict[tuple[str, str], float],
+                                                               str | None]:
+    """One input built alone, as the budget builds it: its quantities, the correlations among them, and the model
+    line it defines (None for a plain quantity). Raises BudgetErrors."""
+    errors: list[BudgetError] = []
+    out = _Inputs()
+    _build_input(name, raw, doc, errors, out)
+    if errors:
+        raise BudgetErrors(errors)
+    return out.quantities, out.correlations, (out.lines[0][1] if out.lines else None)

@@ -225,11 +225,13 @@ def _single_term(s: Any, dofs: Any) -> Any:
 
 
 def evaluate_rows(budget: Budget, env: dict[str, Any], u: dict[str, Any], dof: dict[str, Any], n: int,
-                  correlations: dict[tuple[str, str], Any] | None = None) -> Rows:
+                  correlations: dict[tuple[str, str], Any] | None = None,
+                  pairs: list[tuple[int, int, Any]] | None = None) -> Rows:
     """The GUM on ``n`` rows at once: ``env``, ``u`` and ``dof`` give, per input of the model, its estimate,
     standard uncertainty and degrees of freedom (scalars for every row alike, or arrays of length n);
     ``correlations`` gives per-row coefficients that replace the budget's for those pairs (predictions of one
-    calibration line whose covariance changes with each row's value)."""
+    calibration line whose covariance changes with each row's value); ``pairs`` replaces the budget's coefficients
+    altogether by (i, j, r_ij), r a number or an array over rows (improvement candidates)."""
     import numpy as np
 
     model = budget.model
@@ -256,7 +258,8 @@ def evaluate_rows(budget: Budget, env: dict[str, Any], u: dict[str, Any], dof: d
     for row in np.flatnonzero(under.any(axis=0)):
         errors.setdefault(int(row), "a sensitivity coefficient times its standard uncertainty underflows to zero; "
                                     "express the inputs in units that bring the numbers nearer 1")
-    pairs: list[tuple[int, int, Any]] = list(correlation_pairs(budget, names))
+    if pairs is None:
+        pairs = list(correlation_pairs(budget, names))
     if correlations:
         index = {name: i for i, name in enumerate(names)}
         given = {tuple(sorted((index[a], index[b]))): r for (a, b), r in correlations.items()

@@ -340,7 +340,7 @@ def set_field(raw: dict[str, Any], field: str, value: Any) -> dict[str, Any] | N
 
 
 def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
-    """More sample readings (p to 2p, 3p), and every standard measured once more."""
+    """More sample readings (p to 2p, 3p); the sample's mean is kept and u(x0) follows from p (ISO 8466-1)."""
     block = raw["calibration"]
     out = []
     sample = block.get("sample")
@@ -350,14 +350,8 @@ def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
             changed = set_field(raw, "p", k * p)
             assert changed is not None
             out.append((f"{k * p} sample readings instead of {p}", changed))
-    # as if each standard were measured again with the same responses
-    if "signals" in block:
-        signals = {key: [list(r) + list(r) for r in block["signals"][key]] for key in ("analyte", "internal_standard")}
-        doubled_block = {**block, "signals": signals}
-    else:
-        responses = [r if isinstance(r, list) else [r] for r in block["responses"]]
-        doubled_block = {**block, "responses": [r + r for r in responses]}
-    out.append(("every calibration standard measured twice as often", {**raw, "calibration": doubled_block}))
+    # more calibration readings are not offered: copying the responses would shrink the residual s, and the fit
+    # has no planned-design form (same s, dof of the new design) yet
     return out
 
 

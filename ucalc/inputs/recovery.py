@@ -26,6 +26,7 @@ class RecoverySpec(BaseModel):
     model_config = ConfigDict(extra="forbid", allow_inf_nan=False, strict=True)
 
     found: list[float] = Field(min_length=2, max_length=100_000)
+    planned_n: int | None = Field(default=None, ge=2)  # planning: n results with the scatter of those found
     reference: CertificateSpec
     correct: bool = True
     probability: float = Field(default=0.95, gt=0, lt=1)
@@ -44,7 +45,7 @@ def assess(spec: RecoverySpec) -> dict[str, float | bool]:
     ref = spec.reference
     if ref.value <= 0:
         raise ValueError(f"the reference value must be positive (got {ref.value:g})")
-    n = len(spec.found)
+    n = spec.planned_n or len(spec.found)
     mean = statistics.fmean(spec.found)
     if mean <= 0:
         raise ValueError(f"the mean found value must be positive (got {mean:g})")
@@ -67,8 +68,10 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
     a = assess(rs)
     recovery, u, dof = float(a["R"]), float(a["u"]), float(a["dof"])
     verdict = "differs significantly from 1" if a["significant"] else "does not differ significantly from 1"
+    planned = (f"planned: n = {rs.planned_n} results, assuming the same mean and scatter as the "
+               f"{len(rs.found)} found; " if rs.planned_n else "")
     working = [
-        f"found: mean {a['mean']:.6g}, s {a['s']:.4g}, n = {a['n']}; reference {rs.reference.value:g} "
+        f"{planned}found: mean {a['mean']:.6g}, s {a['s']:.4g}, n = {a['n']}; reference {rs.reference.value:g} "
         f"(u {a['u_ref']:.4g})",
         f"R = {recovery:.5g}, u(R) = {u:.3g} (dof {dof:.1f})",
         f"t = |1 - R|/u(R) = {a['t']:.3g} against t_crit = {a['t_crit']:.3g} ({rs.probability:.0%}): R {verdict}",
@@ -101,13 +104,14 @@ def derive(name: str, spec: Spec, location: Location) -> Derived:
 
 
 def actions(raw: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
-    """Twice as many results on the reference material (same mean and scatter); a better-known reference."""
+    """Twice as many results on the reference material (same mean and scatter, dof of the new design); a
+    better-known reference."""
     from .certificate import actions as certificate_actions
 
     block = raw["recovery"]
-    found = list(block["found"])
-    out = [(f"{2 * len(found)} results on the reference instead of {len(found)}",
-            {**raw, "recovery": {**block, "found": found + found}})]
+    n = block.get("planned_n") or len(block["found"])
+    # the same mean and scatter over twice as many results, with their dof (2n - 1); the data are not copied
+    out = [(f"{2 * n} results on the reference instead of {n}", {**raw, "recovery": {**block, "planned_n": 2 * n}})]
     for label, better in certificate_actions({"certificate": block["reference"]}):
         out.append((f"reference material: {label}", {**raw, "recovery": {**block, "reference": better["certificate"]}}))
     return out

@@ -27,6 +27,7 @@ class Pooled(BaseModel):
     dof: float = Field(ge=1, allow_inf_nan=True)
     n: int | None = Field(default=None, ge=1)
     relative: bool = False
+    planned: bool = False  # s observed on other replicates, assumed for n planned ones (ucalc improve, --set n)
 
 
 class ReplicatesSpec(BaseModel):
@@ -70,8 +71,12 @@ def evaluate(spec: ReplicatesSpec) -> tuple[float, float, float, int, list[str]]
     if spec.pooled is not None:
         s = spec.pooled.s * (abs(mean) if spec.pooled.relative else 1.0)
         u, dof = s / math.sqrt(n), spec.pooled.dof
-        working = [f"mean of n = {n}: {mean:.6g}",
-                   f"pooled repeatability s_p = {s:.4g} (dof {dof:g}); u = s_p/sqrt(n) = {u:.4g}"]
+        if spec.pooled.planned:
+            working = [f"planned: mean of n = {n} replicates: {mean:.6g}, assuming the same scatter as observed",
+                       f"s = {s:.4g} as observed; u = s/sqrt(n) = {u:.4g}; dof = {dof:g}"]
+        else:
+            working = [f"mean of n = {n}: {mean:.6g}",
+                       f"pooled repeatability s_p = {s:.4g} (dof {dof:g}); u = s_p/sqrt(n) = {u:.4g}"]
     else:
         assert spec.values is not None
         s = statistics.stdev(spec.values)
@@ -96,14 +101,22 @@ VIRTUAL_FIELDS = ("n",)
 
 
 def _as_pooled(raw: dict[str, Any], n: int) -> dict[str, Any]:
-    """The same mean and standard deviation, averaged over ``n`` replicates (values become a pooled estimate)."""
+    """The same mean and standard deviation, averaged over ``n`` replicates. A standard deviation from the
+    replicates themselves then has n - 1 dof (the new design, JCGM 100 4.2.3, assuming the same scatter as
+    observed); a pooled one from validation keeps its own dof (4.2.4). The data are never copied."""
     spec = ReplicatesSpec.model_validate(raw["replicates"])
     mean, _, dof, old_n, _ = evaluate(spec)
-    if spec.pooled is not None:
+    pooled: dict[str, Any]
+    if spec.pooled is not None and not spec.pooled.planned:
         pooled = {"s": spec.pooled.s, "dof": spec.pooled.dof, "n": n, "relative": spec.pooled.relative}
+    elif spec.pooled is not None:
+        pooled = {"s": spec.pooled.s, "dof": float(n - 1), "n": n, "relative": spec.pooled.relative,
+                  "planned": True}
     else:
         assert spec.values is not None
-        pooled = {"s": statistics.stdev(spec.values), "dof": dof, "n": n}
+        if n < 2:
+            raise ValueError("n must be at least 2 for a standard deviation from the replicates themselves")
+        pooled = {"s": statistics.stdev(spec.values), "dof": float(n - 1), "n": n, "planned": True}
     block = {"mean": mean, "pooled": pooled}
     if spec.unit:
         block["unit"] = spec.unit

@@ -63,6 +63,9 @@ def render(console: Console, result: Improvement, most: int = 40) -> None:
         else:
             console.print(f"  no combination of the listed actions reaches it; the floor with every action "
                           f"applied is U = {big_u(plan.floor)}{escape(u)}")
+    for o in result.options:
+        if o.note:
+            console.print(escape(f"note: {o.input}, {o.action.removesuffix(' (bound)')}: {o.note}"))
     for note in result.skipped:
         console.print(escape(f"note: not evaluated: {note}"))
 
@@ -71,7 +74,7 @@ def to_json(result: Improvement) -> dict[str, Any]:
     def option(o: Any) -> dict[str, Any]:
         return {"input": o.input, "action": o.action, "kind": o.kind,
                 "expanded_uncertainty": o.expanded_uncertainty, "reduction": o.reduction,
-                "relative_reduction": o.relative_reduction}
+                "relative_reduction": o.relative_reduction, "note": o.note}
 
     plan = result.plan
     return {
