@@ -58,7 +58,7 @@ def searched(cmd: list[str]) -> str:
     import json
 
     out = subprocess.run(cmd + ["--format", "json"], check=True, capture_output=True, text=True).stdout
-    plan = json.loads(out).get("plan") or {}
+    plan = json.loads(out).get("target") or {}
     return str(plan.get("searched", ""))
 
 
