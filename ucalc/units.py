@@ -232,3 +232,19 @@ def check_temperature_scales(node: expr.Node, scales: dict[str, str | None]) -> 
         return None
 
     return walk(node)
+
+
+def physical_kind(unit: Any) -> str | None:
+    """'mass', 'volume', 'count' or 'concentration' for a unit of that kind (amount or mass per volume), else None:
+    the kinds whose negative values are likely slips."""
+    if "count" in str(unit):
+        return "count"
+    reg = registry()
+    dims = reg.Quantity(1.0, unit).dimensionality
+    kinds = {"mass": {"[mass]": 1}, "volume": {"[length]": 3}}
+    for name, want in kinds.items():
+        if dict(dims) == want:
+            return name
+    if dict(dims) in ({"[mass]": 1, "[length]": -3}, {"[substance]": 1, "[length]": -3}):
+        return "concentration"
+    return None

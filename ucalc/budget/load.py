@@ -232,7 +232,7 @@ def _build(doc: Document) -> Budget:
     warnings = built.warnings + tuple(
         f"input '{name}' is not used by the model"
         for name in spec.inputs if name in quantities and name not in model.inputs and name not in defined
-    )
+    ) + _slips(quantities)
     return Budget(
         title=spec.title,
         measurand=Measurand(measurand.symbol, measurand.unit or "", measurand.description or ""),
@@ -653,3 +653,23 @@ def derive_input(doc: Document, name: str, raw: Any) -> tuple[dict[str, Quantity
     if errors:
         raise BudgetErrors(errors)
     return out.quantities, out.correlations, (out.lines[0][1] if out.lines else None)
+
+
+def _slips(quantities: dict[str, Quantity]) -> tuple[str, ...]:
+    """Warnings for likely slips: a negative mass, volume, count or concentration produced by an input model, and a
+    relative component above 0.5 (relative components are fractions)."""
+    out: list[str] = []
+    for name, q in quantities.items():
+        if q.model != "direct" and q.value < 0:
+            try:
+                kind = units.physical_kind(units.parse_unit(q.unit))
+            except ExpressionError:
+                kind = None
+            if kind:
+                out.append(f"input '{name}': the {q.model} model gives a negative {kind} ({q.value:.6g} {q.unit}); "
+                           "check the data it was given")
+        for c in q.components:
+            if c.relative and q.value and c.distribution.scale / abs(q.value) > 0.5:
+                out.append(f"input '{name}': relative component '{c.name}' is {c.distribution.scale / abs(q.value):g} "
+                           "of the value; relative components are fractions (0.5 % is 0.005)")
+    return tuple(out)

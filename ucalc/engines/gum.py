@@ -346,7 +346,12 @@ def propagate(budget: Budget, *, second_order: bool = False) -> GumResult:
                                    "this model; use --method mc (JCGM 101)", subject="second_order")
     terms = rows.terms[:, 0]
     shares = variance_shares(terms, pairs)
-    if uc == 0.0:
+    kinks = _kinks(budget, {x.name: x.value for x in q})
+    if kinks:
+        notes.append(f"the model is evaluated at a kink: {kinks} is 0 at the estimates, where abs() has no derivative; "
+                     "the sensitivity coefficients there (taken as 0) and the first-order GUM do not describe the "
+                     "result: use --method mc (JCGM 101)")
+    elif uc == 0.0:
         notes.append("every input is exact or has zero sensitivity: the combined uncertainty is zero")
     contributions = [
         Contribution(input=x.name, value=x.value, unit=x.unit, standard_uncertainty=x.standard_uncertainty,
@@ -414,3 +419,29 @@ def _second_order(budget: Budget, names: tuple[str, ...], env: dict[str, Any]) -
         raise ComputationError("second-order terms are not finite (they overflow at these standard uncertainties); "
                                "use --method mc (JCGM 101) for this model", subject="second_order")
     return total
+
+
+def _kinks(budget: Budget, env: dict[str, Any]) -> str:
+    """The arguments of abs() in the model that are exactly 0 at the estimates, as text ('' for none)."""
+    from .. import expr
+
+    found: list[str] = []
+
+    def walk(node: Any) -> None:
+        if isinstance(node, expr.Call):
+            if node.fn == "abs":
+                try:
+                    at = expr.compile_tree(node.arg, expr.FLOAT_BACKEND)(env)
+                except (ArithmeticError, ValueError):
+                    at = None
+                if at == 0.0:
+                    found.append("the argument of abs()")
+            walk(node.arg)
+        elif isinstance(node, expr.Bin):
+            walk(node.left)
+            walk(node.right)
+        elif isinstance(node, expr.Neg):
+            walk(node.arg)
+
+    walk(budget.model.inlined)
+    return found[0] if found else ""
