@@ -362,10 +362,10 @@ def propagate(budget: Budget, *, second_order: bool = False) -> GumResult:
     contributions.sort(key=lambda row: (-row.contribution, row.input))
     if cross:
         change = "raise" if cross > 0 else "lower"
-        notes.append(f"correlation terms {change} u_c^2 to {ratio:.0%} of the uncorrelated sum; "
-                     "effective dof by the Welch-Satterthwaite formula generalised to correlated inputs "
-                     "(docs/budget-format.md), which gives correlated inputs estimated from the same data no more "
-                     "dof than that data has")
+        why = ("inputs that may share one estimate get no more dof than it has" if cross > 0 else
+               "where correlations cancel variance the smaller, conservative dof is kept")
+        notes.append(f"correlation terms {change} u_c^2 to {ratio:.0%} of the uncorrelated sum; effective dof by "
+                     f"Welch-Satterthwaite generalised to correlated inputs (docs/budget-format.md): {why}")
     if second:
         notes.append(f"second-order terms add {second / (uc * uc):.1%} of u_c^2")
     return GumResult(
