@@ -47,3 +47,10 @@ def test_kink_of_abs_points_to_monte_carlo() -> None:
     assert not any("every input is exact" in n for n in result.notes)
     away = propagate(load_budget_text(text.replace("value: 0", "value: 1")))
     assert not any("kink" in n for n in away.notes)
+
+
+def test_negative_value_written_by_the_user_is_not_flagged() -> None:
+    # a blank correction stated directly may be negative; only values an input model derived are checked
+    text = ("ucalc: 1\ntitle: t\nmeasurand: {symbol: y, unit: ug/L}\nmodel: 'y = 5 * b'\ninputs:\n"
+            "  b: {value: -0.02, unit: ug/L, components: [{name: s, standard: 0.01}]}\n")
+    assert not any("negative" in w for w in load_budget_text(text).warnings)
