@@ -113,16 +113,16 @@ def render_comparison(console: Console, result: Comparison) -> None:
                          f"dof {dof_text(result.budget_dof)}"))
     table = Table(header_style="bold", title="Budget against QC reproducibility", title_justify="left")
     for col in ("level", "QC mean", "n", f"s_Rw{u}", "dof", f"u budget{u}", "ratio u/s", "F = s²/u²", "p",
-                "share explained", "verdict"):
-        table.add_column(escape(col), justify="left" if col in ("level", "verdict") else "right")
+                "share explained"):
+        table.add_column(escape(col), justify="left" if col == "level" else "right")
     for c in result.levels:
         table.add_row(escape(c.level or "all"), num(c.qc_mean, 4), str(c.qc_n), num(c.s_rw, 3),
                       dof_text(c.dof_qc), num(c.u_budget, 3), f"{c.ratio:.2f}", f"{c.f:.2f}", f"{c.p_value:.3g}",
-                      f"{100 * c.share_explained:.0f} %", c.verdict)
+                      f"{100 * c.share_explained:.0f} %")
     console.print(table)
     for c in result.levels:
-        console.print(escape(f"{c.level or 'QC data'}: {VERDICTS[c.verdict]} (two-sided F-test at 5 %, dof "
-                             f"{dof_text(c.dof_qc)} and {dof_text(c.dof_budget)}; {c.qc_source})"))
+        console.print(escape(f"verdict, {c.level or 'all QC data'}: {VERDICTS[c.verdict]} (two-sided F-test at "
+                             f"5 %, dof {dof_text(c.dof_qc)} and {dof_text(c.dof_budget)}; {c.qc_source})"))
     for note in result.notes:
         console.print(escape(f"note: {note}"))
 
