@@ -184,10 +184,6 @@ def run(
 
     console = _console()
     render_evaluation(console, result.budget, result.gum, result.mc, show_gum=method is not Method.mc)
-    if result.budget.limits is not None:
-        from .reports.qc import render_limits
-
-        render_limits(console, result.budget.limits, result.budget.measurand.unit)
 
 
 @app.command("report", cls=_Command)

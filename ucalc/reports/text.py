@@ -28,6 +28,16 @@ if TYPE_CHECKING:
 _unit = units.display
 
 
+def _line(console: Console, text: str, indent: int = 0, hang: int = 2) -> None:
+    """Plain text (never markup) at ``indent`` spaces; the lines it wraps onto keep ``indent + hang`` spaces."""
+    import textwrap
+
+    pieces = textwrap.wrap(text, width=max(console.width, 40), initial_indent=" " * indent,
+                           subsequent_indent=" " * (indent + hang), break_on_hyphens=False) or [""]
+    for piece in pieces:
+        console.print(piece, markup=False, highlight=False, soft_wrap=True)
+
+
 def render_header(console: Console, budget: Budget) -> None:
     """Title, measurand and model lines."""
     from rich.markup import escape
@@ -44,7 +54,6 @@ def render_header(console: Console, budget: Budget) -> None:
 
 def render_monte_carlo(console: Console, budget: Budget, mc: MonteCarloResult) -> None:
     """The Monte Carlo summary and, when present, the GUM validation verdict (JCGM 101 7, 8)."""
-    from rich.markup import escape
 
     mu = _unit(mc.unit)
     unit = f" {mu}" if mu else ""
@@ -80,7 +89,7 @@ def render_monte_carlo(console: Console, budget: Budget, mc: MonteCarloResult) -
         console.print(f"  GUM validation (JCGM 101 8.2): delta = {fig(v.delta, 2)}{unit}, d_low = "
                       f"{fig(v.d_low, 2)}{unit}, d_high = {fig(v.d_high, 2)}{unit}{scatter}: {verdict}")
     for note in mc.notes:
-        console.print(escape(f"  note: {note}"))
+        _line(console, f"note: {note}", 2)
 
 
 def _table(columns: list[tuple[str, str]], rows: list[list[str]]) -> Any:
@@ -133,21 +142,20 @@ def render_gum(console: Console, budget: Budget, result: GumResult, show_result:
                                   result.coverage_factor, result.coverage_probability))
     console.print(f"[bold]{gum_line}[/bold]" if show_result else f"GUM: {gum_line}")
     for note in (*result.notes, *budget.warnings):
-        console.print(escape(f"note: {note}"))
+        _line(console, f"note: {note}", 0, 6)
 
 
 def render_working(console: Console, budget: Budget, result: GumResult | None = None) -> None:
     """Each input: how its u was evaluated (type, distribution) and, for input models, the working."""
-    from rich.markup import escape
 
     order = [r.input for r in result.contributions] if result is not None else []
     names = [n for n in order if n in budget.quantities] + [n for n in budget.quantities if n not in order]
     console.print("[bold]Inputs[/bold] (type of evaluation, distribution, working)")
     for name, (model, lines) in budget.working.items():
         if lines:
-            console.print(escape(f"  {name} ({model}): defined in the model"))
+            _line(console, f"{name} ({model}): defined in the model", 2)
             for line in lines:
-                console.print(escape(f"    {line}"))
+                _line(console, line, 4)
     for name in names:
         q = budget.quantities[name]
         unit = f" {_unit(q.unit)}" if q.unit else ""
@@ -159,14 +167,13 @@ def render_working(console: Console, budget: Budget, result: GumResult | None = 
                       f"{unit}, {dof_equation('ν', q.dof)}"
         else:
             figures = f"{estimate_text(q.value, 0.0)}{unit}"
-        console.print(escape(f"  {q.name} ({q.model}): {figures}; {how}"))
+        _line(console, f"{q.name} ({q.model}): {figures}; {how}", 2)
         for line in q.working:
-            console.print(escape(f"    {line}"))
+            _line(console, line, 4)
 
 
 def render_correlations(console: Console, budget: Budget) -> None:
     """Correlation coefficients between the model's inputs, with why each exists (stated, input model, item)."""
-    from rich.markup import escape
 
     used = set(budget.model.inputs)
     shown = [(a, b, r) for (a, b), r in sorted(budget.correlations.items()) if r and a in used and b in used]
@@ -175,7 +182,7 @@ def render_correlations(console: Console, budget: Budget) -> None:
     console.print("[bold]Correlations[/bold]")
     for a, b, r in shown:
         origin = budget.correlation_origins.get((a, b), "")
-        console.print(escape(f"  r({a}, {b}) = {r:.4f}" + (f"  ({origin})" if origin else "")))
+        _line(console, f"r({a}, {b}) = {r:.4f}" + (f"  ({origin})" if origin else ""), 2)
 
 
 def render_caution(console: Console) -> None:
@@ -200,4 +207,8 @@ def render_evaluation(console: Console, budget: Budget, gum: GumResult, mc: Mont
         stated = state(budget, gum, mc)
         console.print(f"[bold]Result[/bold] ({stated.method_name}): " + escape(stated.reason))
         console.print("[bold]" + escape(line(stated, _unit(gum.unit))) + "[/bold]")
-    render_caution(console)
+    if budget.limits is not None:
+        from .qc import render_limits
+
+        render_limits(console, budget.limits, budget.measurand.unit)
+    render_caution(console)  # last, after every figure
