@@ -3,7 +3,8 @@
 Target: on a 100-input budget, `improve --target` takes at most 2x `ucalc run` (GUM). The budgets are generated
 (invented demo data): a product of N factors near 1, a third of them means of replicate results, a third
 certificate values, a third plain components, so that every input offers concrete actions or bounds; the target
-is 80 % of the budget's U, which needs several actions. Each time is the best of ``--runs`` runs (default 3).
+is 80 % of the budget's expanded uncertainty U, which needs several actions. Each time is the best of
+``--runs`` runs (default 3).
 Usage: ``python benchmarks/planning.py [--runs N] [--sizes 10 30 100]``; it prints time against size and the
 exponent of a power law fitted to the improve times.
 """
@@ -76,7 +77,12 @@ def main() -> None:
             path = Path(tmp) / f"b{n}.yaml"
             path.write_text(budget_text(n), encoding="utf-8")
             run = best_time([*ucalc, "run", str(path)], args.runs)
-            improve_cmd = [*ucalc, "improve", str(path), "--target", "80%"]
+            import json
+
+            done = subprocess.run([*ucalc, "run", str(path), "--format", "json"], check=True, capture_output=True,
+                                  text=True)
+            goal = 0.8 * json.loads(done.stdout)["expanded_uncertainty"]
+            improve_cmd = [*ucalc, "improve", str(path), "--target", repr(goal)]
             plan = best_time(improve_cmd, args.runs)
             rows.append((n, run, plan))
             print(f"{n:4d} inputs: run {run:.2f} s, improve --target {plan:.2f} s, ratio {plan / run:.2f} "

@@ -17,6 +17,7 @@ from ucalc.samples.decisions import decide, probability_of_conformance
 from ucalc.workflow import load_with_settings
 
 from .conftest import BUDGETS
+from .test_kernel import MIXED as LOQ_BUDGET
 
 runner = CliRunner()
 NICKEL = BUDGETS / "nickel-in-drinking-water.yaml"
@@ -183,24 +184,6 @@ def test_unit_budget_loads() -> None:
     assert load_budget_text(LEAD.read_text(encoding="utf-8")).measurand.unit == "µg/L"
 
 
-LOQ_BUDGET = """ucalc: 1
-title: mixed relative and absolute components
-measurand: {symbol: c, unit: ug/L}
-model: |
-  c = c_raw * f
-coverage: {probability: 0.95}
-inputs:
-  c_raw:
-    unit: ug/L
-    value: 10.0
-    components:
-      - {name: repeatability, standard: 0.03, relative: true, dof: 4}
-      - {name: blank, standard: 0.05, dof: 9}
-  f:
-    value: 1.0
-    components:
-      - {name: dilution, standard: 0.005}
-"""
 
 
 @pytest.mark.parametrize(("side", "limit", "rule", "expected"), [
