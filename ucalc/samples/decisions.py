@@ -76,7 +76,8 @@ def decide_below_loq(loq: Any, expanded_at_loq: Any, limit: Any, rule: Rule = "s
         known = "" if np.isfinite(Ui) else "; the expanded uncertainty at the LOQ is not known"
         if side == "upper" and d == CONFORMS:
             decisions.append(CONFORMS)
-            reasons.append(f"result < LOQ {qi:g}, and the LOQ itself conforms (U = {Ui:.3g} at the LOQ)")
+            at = f" (U = {Ui:.3g} at the LOQ)" if np.isfinite(Ui) else ""
+            reasons.append(f"result < LOQ {qi:g}, and the LOQ itself conforms{at}")
         elif side == "lower" and d == FAILS:
             decisions.append(FAILS)
             reasons.append(f"result < LOQ {qi:g}, and the LOQ itself does not conform to the lower limit {Li:g}")
