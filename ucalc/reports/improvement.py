@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, Any
 
-from .common import estimate_text, expanded_text
+from .common import expanded_text
 
 if TYPE_CHECKING:
     from rich.console import Console
@@ -53,7 +53,7 @@ def render(console: Console, result: Improvement, most: int = 40) -> None:
                              f"({100 * best.relative_reduction:.0f} % less)"))
     plan = result.plan
     if plan is not None:
-        console.print(f"[bold]Target U ≤ {estimate_text(plan.target, 0.0)}{escape(u)}[/bold] ({escape(plan.searched)})")
+        console.print(f"[bold]Target U ≤ {plan.target:.3g}{escape(u)}[/bold] ({escape(plan.searched)})")
         if plan.reachable and plan.actions:
             for o in plan.actions:
                 console.print(escape(f"  - {o.input}: {o.action}"))
