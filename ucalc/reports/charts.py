@@ -88,7 +88,8 @@ def distribution_chart(gum: GumResult, mc: MonteCarloResult, unit: str) -> str:
     ax.set_xlabel(f"{gum.measurand}" + (f" / {unit}" if unit else ""))
     ax.set_ylabel("probability density")
     ax.set_yticks([])
-    ax.legend(fontsize=7, frameon=False, loc="upper left", bbox_to_anchor=(1.0, 1.0), handletextpad=1.0)  # beside the plot, never over the bars
+    # the legend beside the plot, never over the bars
+    ax.legend(fontsize=7, frameon=False, loc="upper left", bbox_to_anchor=(1.0, 1.0), handletextpad=1.0)
     ax.set_title(f"Output distribution, {mc.trials:,} trials", fontsize=10, loc="left")
     return _svg(plt, fig)
 
