@@ -18,6 +18,7 @@ from typing import TYPE_CHECKING, Any, Literal
 from ..budget.definitions import Budget
 from ..errors import ComputationError, MonteCarloError
 from ..results import ResultMethods
+from .correlated import SampledCorrelation
 
 if TYPE_CHECKING:
     import numpy as np
@@ -150,6 +151,7 @@ class MonteCarloResult(ResultMethods):
     precision: Precision | None = None
     heavy_tailed: tuple[str, ...] = ()
     estimate: Literal["mean", "median"] = "mean"
+    correlations: tuple[SampledCorrelation, ...] = ()
 
     @property
     def variance_defined(self) -> bool:
@@ -177,10 +179,12 @@ class Sampler:
     def __init__(self, budget: Budget, seed: int) -> None:
         import numpy as np
 
+        from .correlated import Group, groups
+
         self.budget = budget
         names = budget.model.inputs
-        correlated = sorted({n for a in names for b in names if a != b and budget.correlation(a, b) != 0.0
-                             for n in (a, b)}, key=names.index)
+        linked = groups(budget)
+        correlated = [n for g in linked for n in g]
         self.correlated = tuple(correlated)
         sources: list[Any] = []
         for n in names:
@@ -191,13 +195,9 @@ class Sampler:
                     sources.append((n, c.distribution))
         self.sources = sources
         streams = np.random.SeedSequence(seed).spawn(len(sources) + 1)
-        self.generators = [np.random.Generator(np.random.PCG64(s)) for s in streams]
-        if correlated:
-            u = np.array([budget.quantities[n].standard_uncertainty for n in correlated])
-            r = np.array([[budget.correlation(a, b) for b in correlated] for a in correlated])
-            cov = r * np.outer(u, u)
-            w, v = np.linalg.eigh(cov)
-            self.factor = v * np.sqrt(np.clip(w, 0.0, None))  # cov = F F^T, also for singular matrices
+        self.generators = [np.random.Generator(np.random.PCG64(s)) for s in streams[:-1]]
+        seeds = streams[-1].spawn(2 * len(linked))
+        self.groups = [Group(budget, g, seeds[2 * i:2 * i + 2]) for i, g in enumerate(linked)]
         self.estimates = {n: float(budget.quantities[n].value) for n in names}
 
     def block(self, n: int) -> dict[str, np.ndarray]:
@@ -209,15 +209,16 @@ class Sampler:
                 env[name] = x
             else:
                 env[name] += x
-        if self.correlated:
-            z = self.generators[-1].standard_normal((n, len(self.correlated)))
-            for j, name in enumerate(self.correlated):  # z F^T column by column: no BLAS threads for small k
-                x = z[:, 0] * self.factor[j, 0]
-                for i in range(1, len(self.correlated)):
-                    x += z[:, i] * self.factor[j, i]
+        for group in self.groups:
+            for name, x in group.draw(n).items():
                 x += self.estimates[name]
                 env[name] = x
         return env
+
+    @property
+    def correlations(self) -> tuple[Any, ...]:
+        """Stated and achieved correlation of every correlated pair (:class:`SampledCorrelation`)."""
+        return tuple(c for g in self.groups for c in g.achieved)
 
 
 def _check_trials(trials: int) -> None:
@@ -366,7 +367,8 @@ def _segment_stats(y: np.ndarray, p: float, heavy: bool) -> tuple[list[BlockStat
 
 def _summarise(budget: Budget, y: np.ndarray, seed: int, p: float, *, adaptive: bool = False,
                digits: int | None = None, stages: int = 1,
-               blocks: tuple[list[BlockStats], int] | None = None) -> MonteCarloResult:
+               blocks: tuple[list[BlockStats], int] | None = None,
+               correlations: tuple[SampledCorrelation, ...] = ()) -> MonteCarloResult:
     import numpy as np
 
     trials = len(y)
@@ -405,15 +407,18 @@ def _summarise(budget: Budget, y: np.ndarray, seed: int, p: float, *, adaptive: 
                      f"{'is a t' if len(heavy) == 1 else 'are t-distributions'} with 2 or fewer degrees of "
                      "freedom, whose variance does not exist (JCGM 101 6.4.9); the estimate is the median and "
                      "the coverage intervals stand")
-    if any(budget.correlation(a, b) for a in budget.model.inputs for b in budget.model.inputs if a != b):
-        notes.append("correlated inputs are sampled jointly as Gaussian with their standard uncertainties "
-                     "(JCGM 101 6.4.8)")
+    for c in correlations:
+        achieved = "not defined (a variance does not exist)" if c.achieved is None else f"{c.achieved:.4f}"
+        how = {"gaussian": "jointly Gaussian (JCGM 101 6.4.8)",
+               "multivariate t": "multivariate t (JCGM 102), each keeping its t",
+               "gaussian copula": "Gaussian copula, each keeping its own distribution"}[c.method]
+        notes.append(f"'{c.a}' and '{c.b}' sampled {how}: correlation stated {c.stated:g}, achieved {achieved}")
     result = MonteCarloResult(
         measurand=budget.measurand.symbol, unit=budget.measurand.unit, trials=trials, seed=seed, value=value,
         standard_uncertainty=sd, coverage_probability=p, interval=symmetric, shortest_interval=shortest,
         nonfinite=nonfinite, histogram=histogram, adaptive=adaptive, digits=digits, stages=stages,
         notes=tuple(notes), precision=_precision(stats, per_block), heavy_tailed=heavy,
-        estimate="median" if heavy else "mean",
+        estimate="median" if heavy else "mean", correlations=correlations,
     )
     if nonfinite > MAX_NONFINITE_FRACTION * trials:
         raise MonteCarloError(
@@ -441,7 +446,7 @@ def simulate(budget: Budget, *, trials: int = 1_000_000, seed: int | None = None
     p = coverage_probability_for(budget)
     sampler = Sampler(budget, seed)
     y = _run_trials(budget, sampler, trials, block_size, progress)
-    return _summarise(budget, y, seed, p)
+    return _summarise(budget, y, seed, p, correlations=sampler.correlations)
 
 
 def numerical_tolerance(u: float, digits: int) -> float:
@@ -508,6 +513,7 @@ def simulate_adaptive(budget: Budget, *, digits: int = 2, seed: int | None = Non
     y_all = np.concatenate(blocks)
     del blocks
     return _summarise(budget, y_all, seed, p, adaptive=True, digits=digits, stages=len(stats),
+                      correlations=sampler.correlations,
                       blocks=(stats, stage))
 
 

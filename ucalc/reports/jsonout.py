@@ -65,6 +65,8 @@ def monte_carlo_json(mc: MonteCarloResult) -> dict[str, Any]:
         },
         "histogram": {"counts": list(mc.histogram.counts), "edges": list(mc.histogram.edges),
                       "outside": mc.histogram.outside},
+        "correlations": [{"between": [c.a, c.b], "stated": c.stated, "achieved": c.achieved, "method": c.method}
+                         for c in mc.correlations],
         "notes": list(mc.notes),
     }
 
