@@ -9,10 +9,12 @@ from __future__ import annotations
 import copy
 import io
 import os
+from pathlib import Path
 
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
+from hypothesis.database import DirectoryBasedExampleDatabase
 from ruamel.yaml import YAML
 
 from ucalc import expr
@@ -25,10 +27,13 @@ from .conftest import BUDGETS
 pytestmark = pytest.mark.slow  # about a minute or more; `pytest -m "not slow"` skips it locally, CI runs it
 
 SCALE = int(os.environ.get("UCALC_FUZZ_SCALE", "1"))  # more examples for a longer local fuzzing session
+# outside CI a failing example is saved here and tried first on the next run (CI draws deterministically)
+REPLAY = DirectoryBasedExampleDatabase(Path(__file__).resolve().parent.parent / ".hypothesis" / "examples")
 
 
 def fuzz(examples: int) -> settings:
-    return settings(max_examples=examples * SCALE, deadline=None, derandomize=bool(os.environ.get("CI")), database=None,
+    return settings(max_examples=examples * SCALE, deadline=None, derandomize=bool(os.environ.get("CI")),
+                    database=None if os.environ.get("CI") else REPLAY,
                     suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much,
                                            HealthCheck.function_scoped_fixture])
 FILE = "fuzz.yaml"

@@ -78,12 +78,19 @@ def test_unreachable_target_states_the_floor(write_budget) -> None:
     assert plan["floor"] == pytest.approx(2 * math.sqrt(2 / 3 + _u2_x3(12)), rel=1e-12)
 
 
-def test_improve_names_a_step_on_every_example() -> None:
+def test_improve_answers_the_target_on_every_example() -> None:
     for budget in sorted(BUDGETS.glob("*.yaml")):
-        result = runner.invoke(app, ["improve", str(budget), "--target", "1%"])
+        result = runner.invoke(app, ["improve", str(budget), "--target", "1%", "--format", "json"])
         assert result.exit_code == 0, (budget.name, result.output)
-        assert "Target U ≤" in result.stdout
-        assert "step to improve first" in result.stdout or "bound" in result.stdout
+        data = json.loads(result.stdout)
+        plan = data["target"]
+        assert plan["target"] == pytest.approx(0.01 * abs(data["value"]), rel=1e-12), budget.name  # 1 % of y
+        if data["expanded_uncertainty"] <= plan["target"]:
+            assert plan["reachable"] and plan["actions"] == [], budget.name
+        elif plan["reachable"]:
+            assert plan["actions"] and plan["expanded_uncertainty"] <= plan["target"], budget.name
+        else:
+            assert plan["floor"] > plan["target"], budget.name
 
 
 def test_set_changes_a_budget_like_editing_it(write_budget) -> None:

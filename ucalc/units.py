@@ -73,7 +73,7 @@ def factor(source: Any, target: Any) -> float:
 
 def same_dimension(a: Any, b: Any) -> bool:
     reg = registry()
-    return reg.Quantity(1.0, a).dimensionality == reg.Quantity(1.0, b).dimensionality
+    return bool(reg.Quantity(1.0, a).dimensionality == reg.Quantity(1.0, b).dimensionality)
 
 
 _SUPERSCRIPT = str.maketrans("0123456789-.", "⁰¹²³⁴⁵⁶⁷⁸⁹⁻·")

@@ -141,7 +141,8 @@ class Model:
                 return value * scale if scale != 1.0 else value
 
             self._cache[key] = run
-        return self._cache[key]
+        fn: Callable[[Mapping[str, Any]], Any] = self._cache[key]
+        return fn
 
     def derivative(self, *names: str) -> expr.Node:
         """Tree of the (higher) partial derivative of the measurand w.r.t. ``names``, in measurand units."""
@@ -149,7 +150,8 @@ class Model:
         if key not in self._cache:
             tree = self.inlined if not names else expr.diff(self.derivative(*names[:-1]), names[-1])
             self._cache[key] = tree
-        return self._cache[key]
+        cached: expr.Node = self._cache[key]
+        return cached
 
     def evaluate_tree(self, tree: expr.Node, env: Mapping[str, Any], backend: str = "float") -> Any:
         """Evaluate a derivative tree (cached compilation) and apply the measurand's unit scale."""

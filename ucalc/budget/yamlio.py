@@ -12,7 +12,7 @@ import math
 import re
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import Any, NoReturn
 
 from ..errors import BudgetError, Location
 
@@ -68,10 +68,10 @@ def read_text(path: str | Path, *, what: str = "budget") -> str:
         return raw.decode("utf-8")
     except UnicodeDecodeError as exc:
         line = raw[: exc.start].count(b"\n") + 1
-        return _fail(f"file is not valid UTF-8 (byte 0x{raw[exc.start]:02x} at offset {exc.start})", name, line)
+        _fail(f"file is not valid UTF-8 (byte 0x{raw[exc.start]:02x} at offset {exc.start})", name, line)
 
 
-def _fail(rule: str, file: str, line: int = 0, col: int = 0) -> Any:
+def _fail(rule: str, file: str, line: int = 0, col: int = 0) -> NoReturn:
     raise BudgetError(rule, location=Location(file, line, col))
 
 
