@@ -88,7 +88,8 @@ def _component_cdf(c: Component, x: np.ndarray) -> np.ndarray:
         inner = np.minimum(t, lo) * math.log(hi / lo)
         outer_t = np.maximum(t, lo)
         outer = (outer_t - lo) * math.log(hi) - (outer_t * np.log(outer_t) - outer_t - lo * math.log(lo) + lo)
-        return 0.5 + np.sign(x) * (inner + outer) / (4 * dd)
+        cdf: np.ndarray = 0.5 + np.sign(x) * (inner + outer) / (4 * dd)
+        return cdf
     raise ValueError(d.shape)  # trapezoids are split into two rectangles before this point
 
 
@@ -171,7 +172,8 @@ class Transform:
             return z
         from scipy import special
 
-        return np.interp(special.ndtr(z), self.table[0], self.table[1])
+        values: np.ndarray = np.interp(special.ndtr(z), self.table[0], self.table[1])
+        return values
 
 
 def _factor(r: np.ndarray) -> np.ndarray:
