@@ -128,6 +128,12 @@ class CalibrationSpec(BaseModel):
         return {k: (ratios(v.analyte, v.internal_standard) if isinstance(v, ReadingSignals) else v)
                 for k, v in items.items()}
 
+    def sample_readings(self) -> int:
+        """Number of readings p of the sample (1 without a sample): a batch row is the mean of as many."""
+        if self.sample is None:
+            return 1
+        return len(self.sample.analyte) if isinstance(self.sample, ReadingSignals) else len(self.sample)
+
     @property
     def order(self) -> int:
         return 2 if self.function == "quadratic" else 1
@@ -370,12 +376,7 @@ def predict_many(spec: CalibrationSpec, responses: Any, readings: int | None = N
     f = fit(spec)
     if float(f.gradient(np.array(0.0))) == 0.0 and spec.order == 1:
         raise ValueError("the calibration slope is zero")
-    if readings:
-        p = readings
-    elif spec.sample is None:
-        p = 1
-    else:
-        p = len(spec.sample.analyte) if isinstance(spec.sample, ReadingSignals) else len(spec.sample)
+    p = readings or spec.sample_readings()
     span = (min(spec.standards), max(spec.standards))
     x0, u = predict_rows(f, np.asarray(responses, dtype=float), p, span)
     with np.errstate(invalid="ignore"):
@@ -411,7 +412,7 @@ def row_correlations(name: str, raw: dict[str, Any], responses: Any) -> dict[str
         return {}
     f = fit(cs)
     span = (min(cs.standards), max(cs.standards))
-    p = 1 if cs.sample is None else len(cs.reading_values()[""])
+    p = cs.sample_readings()
     with np.errstate(all="ignore"):
         x0, u = predict_rows(f, np.asarray(responses, dtype=float), p, span)
         jac = -f.powers(x0) / f.gradient(x0)[:, None]
