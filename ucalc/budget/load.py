@@ -665,7 +665,11 @@ def _slips(quantities: dict[str, Quantity]) -> tuple[str, ...]:
                 kind = units.physical_kind(units.parse_unit(q.unit))
             except ExpressionError:
                 kind = None
-            if kind:
+            if kind and q.model == "calibration":  # a blank-level reading is a result (docs/input-models.md)
+                out.append(f"input '{name}': the calibration gives a negative {kind} ({q.value:.6g} {q.unit}) for a "
+                           "reading below the intercept; a blank-level result, to be reported against the detection "
+                           "and quantification limits")
+            elif kind:
                 out.append(f"input '{name}': the {q.model} model gives a negative {kind} ({q.value:.6g} {q.unit}); "
                            "check the data it was given")
         for c in q.components:
