@@ -245,3 +245,13 @@ def test_json_carries_the_models_numbers() -> None:
     assert models["F_bias"]["parts"][0][1] == pytest.approx(rms, rel=1e-12)
     assert models["F_bias"]["significant"] is False
     assert [s["dof"] for s in models["F_Rw"]["sources"]][0] == 39.0
+
+
+def test_absolute_correction_is_negative_without_a_slip_warning() -> None:
+    text = ("ucalc: 1\ntitle: t\nmeasurand: {symbol: y, unit: 'ug/L'}\nmodel: 'y = x + d'\n"
+            "inputs:\n  x: {value: 5.0, unit: ug/L}\n  d:\n    unit: ug/L\n    bias:\n      correct: true\n"
+            "      material:\n        certified: {value: 10.0, expanded: 0.2, k: 2}\n"
+            "        results: [10.31, 10.18, 10.42, 10.25]\n")
+    b = load_budget_text(text)
+    assert b.quantities["d"].value == pytest.approx(-(np.mean([10.31, 10.18, 10.42, 10.25]) - 10.0))
+    assert not any("negative" in w for w in b.warnings)

@@ -660,7 +660,7 @@ def _slips(quantities: dict[str, Quantity]) -> tuple[str, ...]:
     relative component above 0.5 (relative components are fractions)."""
     out: list[str] = []
     for name, q in quantities.items():
-        if q.model not in ("", "direct", "components") and q.value < 0:
+        if q.model not in ("", "direct", "components", "bias") and q.value < 0:  # a bias correction may be < 0
             try:
                 kind = units.physical_kind(units.parse_unit(q.unit))
             except ExpressionError:
