@@ -10,7 +10,7 @@ import io
 import math
 from typing import TYPE_CHECKING
 
-from .common import share_text
+from .common import dof_text, share_text
 
 if TYPE_CHECKING:
     from ..engines.gum import GumResult
@@ -76,7 +76,7 @@ def distribution_chart(gum: GumResult, mc: MonteCarloResult, unit: str) -> str:
             label = "GUM: Gaussian"
         else:
             pdf = stats.t.pdf((xs - gum.value) / gum.standard_uncertainty, gum.effective_dof) / gum.standard_uncertainty
-            label = f"GUM: t, {gum.effective_dof:.0f} dof"
+            label = f"GUM: t, {dof_text(gum.effective_dof)} dof"
         ax.plot(xs, pdf, color="black", linewidth=1.4, label=label)
     top = max(float(density.max()) if len(density) else 1.0, 1e-300)
     lo, hi = gum.value - gum.expanded_uncertainty, gum.value + gum.expanded_uncertainty
