@@ -49,7 +49,7 @@ def render_header(console: Console, budget: Budget) -> None:
     desc = f" — {budget.measurand.description}" if budget.measurand.description else ""
     console.print(escape(f"measurand {budget.measurand.symbol}{' in ' + mu if mu else ' (no unit)'}{desc}"))
     for line in budget.model.lines:
-        console.print(escape(f"  {line.name} = {line.text}"))
+        _line(console, f"{line.name} = {line.text}", 2, 4)
 
 
 def render_monte_carlo(console: Console, budget: Budget, mc: MonteCarloResult) -> None:
