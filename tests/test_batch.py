@@ -13,7 +13,7 @@ from typer.testing import CliRunner
 from ucalc.budget.load import load_budget_text
 from ucalc.cli import app
 from ucalc.engines.gum import propagate
-from ucalc.samples.decisions import decide, probability_of_conformance
+from ucalc.samples.decisions import decide, decide_below_loq, probability_of_conformance
 from ucalc.workflow import load_with_settings
 
 from .conftest import BUDGETS
@@ -123,11 +123,12 @@ def test_folder_of_budgets_by_analyte(tmp_path) -> None:
     ],
 )
 def test_decision_rules_at_the_limit(rule: str, values: list[float], expected: list[str]) -> None:
-    assert decide(values, [1.0] * len(values), 10.0, rule) == expected  # type: ignore[arg-type]
+    assert list(decide(values, [1.0] * len(values), 10.0, rule)) == expected  # type: ignore[arg-type]
 
 
 def test_lower_limit_mirrors() -> None:
-    assert decide([9.0, 11.0], [0.5, 0.5], 10.0, "guarded_acceptance", "lower") == ["does not conform", "conforms"]
+    decisions = decide([9.0, 11.0], [0.5, 0.5], 10.0, "guarded_acceptance", "lower")
+    assert list(decisions) == ["does not conform", "conforms"]
 
 
 def test_probability_of_conformance_against_scipy() -> None:
@@ -215,3 +216,32 @@ def test_below_loq_is_decided_from_what_is_known(tmp_path, side: str, limit: str
         nu_eff = uc**4 / ((a**2 + b**2) ** 2 / nu)
         U = stats.t.ppf(0.975, math.floor(nu_eff)) * uc
         assert f"U = {U:.3g} at the LOQ" in rows["decision_reason"][0]
+
+
+def _below_loq_one_row(q: float, U: float, L: float, rule: str, side: str) -> tuple[str, str]:
+    """The "< LOQ" decision and reason of one row, written out with Python's format()."""
+    if not (math.isfinite(q) and math.isfinite(L)):
+        return "", ""
+    d = str(decide([q], [U], [L], rule, side)[0])  # type: ignore[arg-type]
+    known = "" if math.isfinite(U) else "; the expanded uncertainty at the LOQ is not known"
+    if side == "upper" and d == "conforms":
+        at = f" (U = {U:.3g} at the LOQ)" if math.isfinite(U) else ""
+        return d, f"result < LOQ {q:g}, and the LOQ itself conforms{at}"
+    if side == "lower" and d == "does not conform":
+        return d, f"result < LOQ {q:g}, and the LOQ itself does not conform to the lower limit {L:g}"
+    return "cannot be decided", (f"result < LOQ {q:g}: at the LOQ the decision would be '{d or 'unknown'}' "
+                                 f"(U = {U:.3g} at the LOQ{known}), so a value below the LOQ may or may not conform "
+                                 f"to the {side} limit {L:g}")
+
+
+@pytest.mark.parametrize("side", ["upper", "lower"])
+@pytest.mark.parametrize("rule", ["simple", "guarded_acceptance", "guarded_rejection"])
+def test_below_loq_rows_decided_as_single_rows(rule: str, side: str) -> None:
+    rng = np.random.default_rng(4)
+    q = np.round(rng.uniform(0.1, 5, 3000), rng.integers(1, 4))
+    U = rng.uniform(0.01, 2, 3000)
+    L = np.round(rng.uniform(0.1, 6, 3000), 2)
+    U[::50], q[::97], L[::89] = np.nan, np.nan, np.inf
+    decisions, reasons = decide_below_loq(q, U, L, rule, side)  # type: ignore[arg-type]
+    expected = [_below_loq_one_row(float(a), float(b), float(c), rule, side) for a, b, c in zip(q, U, L, strict=True)]
+    assert list(zip(decisions.tolist(), reasons.tolist(), strict=True)) == expected

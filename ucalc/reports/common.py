@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 from decimal import ROUND_HALF_UP, Decimal
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 from .rounding import round_pair, round_uncertainty
 
@@ -158,15 +158,60 @@ def statement(symbol: str, value: float, unit: str, U: float, k: float, probabil
     U is rounded to ``digits`` significant digits and y to the same decimal place; the relative expanded
     uncertainty follows. With a fixed k the Gaussian probability it corresponds to is stated as approximate.
     """
-    y_text, u_text = round_pair(value, U, digits)
+    return str(statements(symbol, [value], unit, [U], [k], probability, digits)[0])
+
+
+def statements(symbol: str, values: Any, unit: str, U: Any, k: Any, probability: float | None,
+               digits: int = 2) -> Any:
+    """:func:`statement` for arrays of rows (y, U and k per row), built with array operations; a StringDType array."""
+    import numpy as np
+
+    from .rounding import formatted, round_pairs
+
+    values, U, k = (np.asarray(a, dtype=float) for a in (values, U, k))
+    y_text, u_text = round_pairs(values, U, digits)
     unit_part = f" {unit}" if unit else ""
+    k_text = formatted(k, ".2f")
     if probability is not None:
-        tail = f"k = {k:.2f}, coverage probability about {probability_text(probability)}"
+        tail = "k = " + k_text + f", coverage probability about {probability_text(probability)}"
     else:
-        gaussian = math.erf(k / math.sqrt(2.0))
-        tail = f"k = {k:.2f} (about {probability_text(round(gaussian, 2))} for a normal distribution)"
-    relative = f"; relative U = {relative_text(U, value)}" if value and math.isfinite(U) and U > 0 else ""
-    return f"{symbol} = ({y_text} ± {u_text}){unit_part}, {tail}{relative}"
+        distinct, where = np.unique(k, return_inverse=True)
+        about = np.array([f" (about {probability_text(round(math.erf(x / math.sqrt(2.0)), 2))} for a normal "
+                          "distribution)" for x in distinct.tolist()], dtype=np.dtypes.StringDType())
+        tail = "k = " + k_text + about[where.reshape(k.shape)]
+    with np.errstate(invalid="ignore"):
+        shown = (values != 0) & np.isfinite(U) & (U > 0)
+    relative = np.full(values.shape, "", dtype=np.dtypes.StringDType())
+    relative[shown] = "; relative U = " + relative_texts(U[shown], values[shown])
+    return f"{symbol} = (" + y_text + " ± " + u_text + ")" + unit_part + ", " + tail + relative
+
+
+def relative_texts(U: Any, values: Any) -> Any:
+    """:func:`relative_text` for arrays, by array operations where the float settles the rounding."""
+    import numpy as np
+
+    from .rounding import _half_up, _scale, round_pairs
+
+    U, values = np.asarray(U, dtype=float), np.asarray(values, dtype=float)
+    text = np.full(U.shape, "", dtype=np.dtypes.StringDType())
+    with np.errstate(all="ignore"):
+        pct = 100 * U / np.abs(values)
+        fine = np.isfinite(pct) & (pct >= 1e-3)
+        big = fine & (pct >= 10)  # two significant digits of the integer part: 123.4 -> 120
+        log = np.log10(np.where(big, pct, 10.0))
+        places = np.floor(log).astype(np.int64) - 1
+        n, unsure = _half_up(_scale(np.where(big, pct, 10.0), places))
+        unsure |= np.abs(log - np.round(log)) <= 1e-9
+        fine &= ~(big & (unsure | (places > 13)))
+    rows = big & fine
+    zeros = np.strings.multiply(np.array("0", dtype=text.dtype), places[rows])
+    text[rows] = n[rows].astype(text.dtype) + zeros
+    small = fine & ~big
+    text[small] = round_pairs(pct[small], pct[small], 2)[1]
+    text = text + " %"
+    for i in np.flatnonzero(~fine):
+        text[i] = relative_text(float(U.flat[i]), float(values.flat[i]))
+    return text
 
 
 def budget_table(result: GumResult) -> tuple[list[str], list[list[str]]]:

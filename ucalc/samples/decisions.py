@@ -36,8 +36,8 @@ RULE_TEXT = {
 }
 
 
-def decide(value: Any, expanded: Any, limit: Any, rule: Rule = "simple", side: Side = "upper") -> list[str]:
-    """The decision for each result (arrays or floats broadcast together)."""
+def decide(value: Any, expanded: Any, limit: Any, rule: Rule = "simple", side: Side = "upper") -> Any:
+    """The decision for each result (arrays or floats broadcast together), as a flat StringDType array."""
     import numpy as np
 
     y, U, L = np.broadcast_arrays(np.asarray(value, float), np.asarray(expanded, float), np.asarray(limit, float))
@@ -50,13 +50,14 @@ def decide(value: Any, expanded: Any, limit: Any, rule: Rule = "simple", side: S
     else:
         accept, reject = y <= L, y > L + U
     known = np.isfinite(y) & np.isfinite(L) & (np.isfinite(U) | (rule == "simple"))
-    decision = np.select([~known, accept, reject], ["", CONFORMS, FAILS], INCONCLUSIVE)
-    return [str(d) for d in decision.ravel()]
+    names = np.array(["", CONFORMS, FAILS, INCONCLUSIVE], dtype=np.dtypes.StringDType())
+    return names[np.select([~known, accept, reject], [0, 1, 2], 3).ravel()]
 
 
 def decide_below_loq(loq: Any, expanded_at_loq: Any, limit: Any, rule: Rule = "simple",
-                     side: Side = "upper") -> tuple[list[str], list[str]]:
-    """Decisions and reasons for results reported as "< LOQ" (arrays or floats broadcast together).
+                     side: Side = "upper") -> tuple[Any, Any]:
+    """Decisions and reasons for results reported as "< LOQ" (arrays or floats broadcast together), as flat
+    StringDType arrays.
 
     The rules of :func:`decide` are monotone in y, so a decision holds for every value below the LOQ exactly when it
     holds at the LOQ itself, decided with the expanded uncertainty at the LOQ: an upper limit gives ``conforms``
@@ -64,28 +65,29 @@ def decide_below_loq(loq: Any, expanded_at_loq: Any, limit: Any, rule: Rule = "s
     """
     import numpy as np
 
-    q, U, L = np.broadcast_arrays(np.asarray(loq, float), np.asarray(expanded_at_loq, float),
-                                  np.asarray(limit, float))
+    from ..reports.rounding import formatted
+
+    q, U, L = (a.ravel() for a in np.broadcast_arrays(np.asarray(loq, float), np.asarray(expanded_at_loq, float),
+                                                       np.asarray(limit, float)))
     at_loq = decide(q, U, L, rule, side)
-    decisions, reasons = [], []
-    for qi, Ui, Li, d in zip(q.ravel(), U.ravel(), L.ravel(), at_loq, strict=True):
-        if not (np.isfinite(qi) and np.isfinite(Li)):
-            decisions.append("")
-            reasons.append("")
-            continue
-        known = "" if np.isfinite(Ui) else "; the expanded uncertainty at the LOQ is not known"
-        if side == "upper" and d == CONFORMS:
-            decisions.append(CONFORMS)
-            at = f" (U = {Ui:.3g} at the LOQ)" if np.isfinite(Ui) else ""
-            reasons.append(f"result < LOQ {qi:g}, and the LOQ itself conforms{at}")
-        elif side == "lower" and d == FAILS:
-            decisions.append(FAILS)
-            reasons.append(f"result < LOQ {qi:g}, and the LOQ itself does not conform to the lower limit {Li:g}")
-        else:
-            decisions.append(UNDECIDED)
-            reasons.append(f"result < LOQ {qi:g}: at the LOQ the decision would be '{d or 'unknown'}' (U = {Ui:.3g} "
-                           f"at the LOQ{known}), so a value below the LOQ may or may not conform to the {side} "
-                           f"limit {Li:g}")
+    text_type = np.dtypes.StringDType()
+    fine = np.isfinite(q) & np.isfinite(L)
+    conforms = fine & (at_loq == CONFORMS) if side == "upper" else np.zeros(q.shape, bool)
+    fails = fine & (at_loq == FAILS) if side == "lower" else np.zeros(q.shape, bool)
+    undecided = fine & ~conforms & ~fails
+    decisions = np.full(q.shape, "", dtype=text_type)
+    decisions[conforms], decisions[fails], decisions[undecided] = CONFORMS, FAILS, UNDECIDED
+    q_text, u_text, l_text = formatted(q, "g"), formatted(U, ".3g"), formatted(L, "g")
+    known = np.where(np.isfinite(U), "", "; the expanded uncertainty at the LOQ is not known")
+    would = np.where(at_loq == "", "unknown", at_loq)
+    reasons = np.full(q.shape, "", dtype=text_type)
+    head = "result < LOQ " + q_text
+    at = np.where(np.isfinite(U), " (U = " + u_text + " at the LOQ)", "")
+    reasons[conforms] = (head + ", and the LOQ itself conforms" + at)[conforms]
+    reasons[fails] = (head + ", and the LOQ itself does not conform to the lower limit " + l_text)[fails]
+    reasons[undecided] = (head + ": at the LOQ the decision would be '" + would + "' (U = " + u_text + " at the LOQ"
+                          + known + f"), so a value below the LOQ may or may not conform to the {side} limit "
+                          + l_text)[undecided]
     return decisions, reasons
 
 

@@ -128,13 +128,25 @@ def _per_row_names(budget: Budget, raw_inputs: dict[str, Any], frame: Any, maps:
     return {n: c for n, c in out.items() if n in budget.model.inputs}
 
 
-def _budget_limits(budget: Budget, options: BatchOptions, positions: Any, loq: Any) -> dict[int, float]:
-    """LOD per row of this budget's rows, and its LOQ written into ``loq`` unless --loq/--loq-column gave one."""
+def _budget_limits(budget: Budget, options: BatchOptions, positions: Any, loq: Any) -> float:
+    """This budget's LOD (NaN without one), and its LOQ written into ``loq`` for its rows unless --loq or
+    --loq-column gave one."""
     if budget.limits is None:
-        return {}
+        return math.nan
     if options.loq is None and not options.loq_column and math.isfinite(budget.limits.loq):
         loq[positions] = budget.limits.loq
-    return {int(i): budget.limits.lod for i in positions}
+    return budget.limits.lod
+
+
+def _below_text(symbol: str, limits: Any, unit: str, why: str) -> Any:
+    """'c < 0.5 µg/L (why)' for each row's limit (formatted once per distinct limit)."""
+    import numpy as np
+
+    distinct, where = np.unique(limits, return_inverse=True)
+    unit_part = f" {unit}" if unit else ""
+    texts = np.array([f"{symbol} < {x:g}{unit_part} ({why})" for x in distinct.tolist()],
+                     dtype=np.dtypes.StringDType())
+    return texts[where]
 
 
 def _own_rows(budget: Budget, name: str, values: Any) -> tuple[Any, Any]:
@@ -159,13 +171,14 @@ def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
 
     from ..budget.load import load_budget
     from ..engines.batch import expanded_at, propagate_rows, row_input
-    from ..reports.common import statement
+    from ..reports.common import statements
     from ..reports.document import pretty_unit
 
     n = len(frame)
-    out = frame.copy()
+    out = frame.copy(deep=False)  # new columns only: the caller's frame is left as it was
     results: dict[str, Any] = {c: np.full(n, np.nan) for c in ("value", "u", "nu_eff", "k", "U", "U_rel")}
-    text: dict[str, list[str]] = {c: [""] * n for c in ("unit", "statement", "error")}
+    text_type = np.dtypes.StringDType()
+    text: dict[str, Any] = {c: np.full(n, "", dtype=text_type) for c in ("unit", "statement", "error")}
     u_at_loq = np.full(n, np.nan)  # U at the LOQ, for rows reported as "< LOQ" and decided against a limit
     limits = _per_row(frame, "limit_column", options.limit_column, options.limit)
     loq = _per_row(frame, "loq_column", options.loq_column, options.loq)
@@ -173,8 +186,7 @@ def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
     for analyte, (path, index) in choose_budgets(source, frame, options).items():
         positions = frame.index.get_indexer(index)
         if path is None:
-            for i in positions:
-                text["error"][i] = f"no budget for analyte '{analyte}' in {source}"
+            text["error"][positions] = f"no budget for analyte '{analyte}' in {source}"
             continue
         budget = path if isinstance(path, Budget) else load_budget(path)
         if budget.reporting is not None and budget.reporting.method == "monte-carlo":
@@ -184,6 +196,7 @@ def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
         columns = _per_row_names(budget, budget.raw_inputs, frame, options.maps)
         lod = _budget_limits(budget, options, positions, loq)
         unit = pretty_unit(budget.measurand.unit)
+        symbol = budget.measurand.symbol
         for start in range(0, len(positions), CHUNK):
             rows = positions[start:start + CHUNK]
             sub = frame.iloc[rows]
@@ -209,59 +222,60 @@ def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
             results["U"][rows] = res.expanded_uncertainty
             with np.errstate(all="ignore"):
                 results["U_rel"][rows] = res.expanded_uncertainty / np.abs(res.value)
-            for j, i in enumerate(rows):
-                text["unit"][i] = unit
-                if j in res.errors:
-                    text["error"][i] = res.errors[j]
-                    continue
-                y, U = float(res.value[j]), float(res.expanded_uncertainty[j])
-                if math.isfinite(lod.get(i, math.nan)) and y < lod[i]:
-                    text["statement"][i] = (f"{budget.measurand.symbol} < {lod[i]:g}{' ' + unit if unit else ''} "
-                                            "(not detected: below the limit of detection)")
-                elif math.isfinite(loq[i]) and y < loq[i]:
-                    text["statement"][i] = (f"{budget.measurand.symbol} < {loq[i]:g}{' ' + unit if unit else ''} "
-                                            "(below the limit of quantification)")
-                else:
-                    text["statement"][i] = statement(budget.measurand.symbol, y, unit, U,
-                                                     float(res.coverage_factor[j]), res.coverage_probability,
-                                                     options.digits)
+            text["unit"][rows] = unit
+            failed = np.zeros(len(rows), dtype=bool)
+            failed[list(res.errors)] = True
+            for j, reason in res.errors.items():
+                text["error"][rows[j]] = reason
+            y = res.value
+            with np.errstate(invalid="ignore"):
+                not_detected = ~failed & (y < lod)
+                unquantified = ~failed & ~not_detected & (y < loq[rows])
+            stated = ~(failed | not_detected | unquantified)
+            if not_detected.any():
+                text["statement"][rows[not_detected]] = _below_text(
+                    symbol, np.full(int(not_detected.sum()), lod), unit,
+                    "not detected: below the limit of detection")
+            if unquantified.any():
+                text["statement"][rows[unquantified]] = _below_text(
+                    symbol, loq[rows[unquantified]], unit, "below the limit of quantification")
+            text["statement"][rows[stated]] = statements(
+                symbol, y[stated], unit, res.expanded_uncertainty[stated], res.coverage_factor[stated],
+                res.coverage_probability, options.digits)
             done += len(rows)
             if progress:
                 progress(done, n)
     below = np.isfinite(loq) & (results["value"] < loq)
     for column in ("value", "u", "nu_eff", "k", "U", "U_rel"):
         out[column] = results[column]
-    out["unit"] = text["unit"]
-    out["statement"] = text["statement"]
+    out["unit"] = text["unit"].astype(object)
+    out["statement"] = text["statement"].astype(object)
     decisions: dict[str, int] = {}
     rule_text = None
     if options.limit is not None or options.limit_column:
         rule_text = RULE_TEXT[options.rule] + f", {options.side} limit"
         decision = decide(results["value"], results["U"], limits, options.rule, options.side)
-        reasons = [""] * n
+        reasons = np.full(n, "", dtype=text_type)
         low_rows = np.flatnonzero(below)
         if low_rows.size:
-            low_decisions, low_reasons = decide_below_loq(loq[low_rows], u_at_loq[low_rows], limits[low_rows],
-                                                          options.rule, options.side)
-            for i, d, why in zip(low_rows, low_decisions, low_reasons, strict=True):
-                decision[i], reasons[i] = d, why
+            decision[low_rows], reasons[low_rows] = decide_below_loq(
+                loq[low_rows], u_at_loq[low_rows], limits[low_rows], options.rule, options.side)
         prob = probability_of_conformance(results["value"], results["u"], results["nu_eff"], limits, options.side)
         prob = np.where(below, np.nan, prob)
         if not options.limit_column:
             out["limit"] = limits
-        out["decision"] = decision
+        out["decision"] = decision.astype(object)
         out["p_conformance"] = prob
         out["decision_rule"] = rule_text
-        if any(reasons):
-            out["decision_reason"] = reasons
-        for d in decision:
-            if d:
-                decisions[d] = decisions.get(d, 0) + 1
+        if low_rows.size and (reasons != "").any():
+            out["decision_reason"] = reasons.astype(object)
+        names, counts = np.unique(decision[decision != ""], return_counts=True)
+        decisions = {str(d): int(c) for d, c in zip(names, counts, strict=True)}
     for column in ("value", "U", "U_rel"):
         out.loc[below, column] = np.nan  # below the LOQ a result is not reported as a number
-    out["error"] = text["error"]
-    failed = sum(1 for e in text["error"] if e)
-    return out, BatchSummary(n, failed, decisions, int(below.sum()), rule_text)
+    out["error"] = text["error"].astype(object)
+    failed_rows = int(np.count_nonzero(text["error"] != ""))
+    return out, BatchSummary(n, failed_rows, decisions, int(below.sum()), rule_text)
 
 
 def batch(budget: str | Path, table: str | Path, output: str | Path, options: BatchOptions, *,
