@@ -48,7 +48,8 @@ inputs:
   f_dil: {value: 10, components: [{name: d, standard: 0.003, relative: true}]}
   R: {value: 0.97, components: [{name: r, expanded: 0.03, k: 2}]}
 """
-OPTIONS = ["--limit", "2000", "--rule", "guarded-acceptance", "--loq", "20"]
+OPTIONS = ["--limit", "50", "--rule", "guarded-acceptance", "--loq", "2"]
+LOQ = 2.0
 CSV_TARGET, XLSX_TARGET, MEMORY_TARGET = 2.0, 1.5, 3.0
 WALL = False
 NOTES = ["", "duplicate", "=1+2", "-5 % spike", "@check", "re-run\x07", "ok"]  # formula-like and control text
@@ -127,7 +128,7 @@ def agreement(budget_path: Path, table: Path, output: Path, sample: int) -> tupl
 
     from ucalc.budget.load import load_budget
     from ucalc.engines.batch import propagate_rows, row_input
-    from ucalc.reports.common import probability_text
+    from ucalc.reports.common import probability_text, relative_text
     from ucalc.reports.rounding import round_pair
 
     budget = load_budget(budget_path)
@@ -137,7 +138,7 @@ def agreement(budget_path: Path, table: Path, output: Path, sample: int) -> tupl
     columns = {name: inp[name].to_numpy(float) for name in ("c_inst", "m", "f_dil")}
     rows = [row_input(budget, name, None, values) for name, values in columns.items()]
     res = propagate_rows(budget, rows, n)
-    loq = 20.0
+    loq = LOQ
     below = res.value < loq
     differ = 0
     for name, ref in (("u", res.standard_uncertainty), ("nu_eff", res.effective_dof),
@@ -155,7 +156,7 @@ def agreement(budget_path: Path, table: Path, output: Path, sample: int) -> tupl
             return f"c < {loq:g} mg/kg (below the limit of quantification)"
         y_text, u_text = round_pair(y, U, 2)
         tail = f"k = {k:.2f}, coverage probability about {probability_text(0.95)}"
-        relative = f"; relative U = {100 * U / abs(y):.2g} %" if y and math.isfinite(U) and U > 0 else ""
+        relative = f"; relative U = {relative_text(U, y)}" if y and math.isfinite(U) and U > 0 else ""
         return f"c = ({y_text} ± {u_text}) mg/kg, {tail}{relative}"
 
     rng = np.random.default_rng(2)
