@@ -42,14 +42,21 @@ def clock() -> float:
 
 def budget_text(inputs: int) -> str:
     """A budget of ``inputs`` inputs: half of them factors near 1 with relative components, half additive
-    corrections near 0; mixed distributions, some with finite dof. y = f1 * ... * fm * (1 + d1 + ... + dk)."""
+    corrections near 0; mixed distributions, some with finite dof. y = f1 * ... * fm * (1 + d1 + ... + dk), written
+    as products and sums of at most 40 terms on lines of their own."""
     factors = inputs // 2
     corrections = inputs - factors
     f = [f"f{i}" for i in range(1, factors + 1)]
     d = [f"d{i}" for i in range(1, corrections + 1)]
+    group = 40  # terms per model line, well inside the expression depth limit
+    products = [f[i:i + group] for i in range(0, len(f), group)]
+    sums = [d[i:i + group] for i in range(0, len(d), group)]
+    model = [f"  p{j} = {' * '.join(g)}" for j, g in enumerate(products)]
+    model += [f"  s{j} = {' + '.join(g)}" for j, g in enumerate(sums)]
+    model.append(f"  y = {' * '.join(f'p{j}' for j in range(len(products)))} * "
+                 f"(1 + {' + '.join(f's{j}' for j in range(len(sums)))})")
     lines = ["ucalc: 1", f"title: benchmark, {inputs} inputs", "measurand: {symbol: y, unit: mg/kg}",
-             "model: |", f"  y = {' * '.join(f)} * (1 + {' + '.join(d)})", "coverage: {probability: 0.95}",
-             "inputs:"]
+             "model: |", *model, "coverage: {probability: 0.95}", "inputs:"]
     for i, name in enumerate(f):
         spec = DISTRIBUTIONS[i % 4] % (0.002 + 0.0001 * i)
         lines.append(f"  {name}: {{value: {1 + 0.001 * i:g}, components: [{{name: c, relative: true, "
