@@ -33,7 +33,7 @@ def best_time(cmd: list[str], runs: int) -> float:
     for _ in range(runs):
         before = resource.getrusage(resource.RUSAGE_CHILDREN)
         start = time.perf_counter()
-        subprocess.run(cmd, check=True, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, cwd=ROOT)
+        subprocess.run(cmd, check=True, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
         wall = time.perf_counter() - start
         after = resource.getrusage(resource.RUSAGE_CHILDREN)
         cpu = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
@@ -41,21 +41,23 @@ def best_time(cmd: list[str], runs: int) -> float:
     return min(times)
 
 
-def ucalc_command() -> list[str]:
+def ucalc_command(module: bool = False) -> list[str]:
     script = Path(sys.executable).with_name("ucalc")
-    return [str(script)] if script.exists() else [sys.executable, "-m", "ucalc.cli"]
+    return [str(script)] if script.exists() and not module else [sys.executable, "-m", "ucalc.cli"]
 
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--runs", type=int, default=3)
     parser.add_argument("--cpu", action="store_true", help="compare CPU time (user + system) instead of wall time")
+    parser.add_argument("--module", action="store_true",
+                        help="run `python -m ucalc.cli` from the current folder (e.g. an older checkout)")
     parser.add_argument("budgets", nargs="*", type=Path)
     args = parser.parse_args()
     global CPU
     CPU = args.cpu
     budgets = args.budgets or sorted((ROOT / "budgets").glob("*.yaml"))
-    ucalc = ucalc_command()
+    ucalc = ucalc_command(args.module)
 
     base = best_time([sys.executable, "-c", "pass"], args.runs)
     libs = best_time([sys.executable, "-c", "import numpy, scipy.special, pint"], args.runs)

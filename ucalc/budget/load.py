@@ -143,16 +143,33 @@ def _fields(model: type[BaseModel], loc: tuple[Any, ...]) -> list[str]:
 def validation_errors(
     exc: ValidationError, model: type[BaseModel], doc: Document, prefix: PathKey, subject: str
 ) -> list[BudgetError]:
+    """One located error per pydantic error; at the top level (no ``subject``) the subject comes from the error's
+    ``loc``: "input 'V'", 'correlation 2', or the top-level key."""
     out = []
     for err in exc.errors():
         loc = tuple(p for p in err["loc"] if isinstance(p, str | int))
         rule = _rule(dict(err), _fields(model, loc))
-        where = _path_text(loc)
         key_error = err["type"] == "extra_forbidden"
         target = (*prefix, *loc) if err["type"] != "missing" else (*prefix, *loc[:-1])
-        text = f"{where}: {rule}" if where and err["type"] not in ("missing", "extra_forbidden") else rule
-        out.append(BudgetError(text, location=doc.locate(target, key=key_error), subject=subject))
+        named, rest = subject, loc
+        if err["type"] not in ("missing", "extra_forbidden"):
+            if not subject:
+                named, rest = _subject_of(loc)
+            where = _path_text(rest)
+            rule = f"{where}: {rule}" if where else rule
+        out.append(BudgetError(rule, location=doc.locate(target, key=key_error), subject=named))
     return out
+
+
+def _subject_of(loc: tuple[str | int, ...]) -> tuple[str, tuple[str | int, ...]]:
+    """The subject a top-level location names and the rest of the location within it."""
+    if len(loc) >= 2 and loc[0] == "inputs" and isinstance(loc[1], str):
+        return f"input '{loc[1]}'", loc[2:]
+    if len(loc) >= 2 and loc[0] == "correlations" and isinstance(loc[1], int):
+        return f"correlation {loc[1] + 1}", loc[2:]
+    if loc and isinstance(loc[0], str):
+        return loc[0], loc[1:]
+    return "", loc
 
 
 # ---- building --------------------------------------------------------------------------------------------
@@ -183,8 +200,7 @@ def _build(doc: Document) -> Budget:
     try:
         spec = BudgetSpec.model_validate(top)
     except ValidationError as exc:
-        for e in validation_errors(exc, BudgetSpec, doc, (), ""):
-            errors.append(_subject_from_rule(e))
+        errors.extend(validation_errors(exc, BudgetSpec, doc, (), ""))
 
     raw_items = top.get("items")
     uses = None
@@ -260,23 +276,6 @@ def _document(spec: BudgetSpec) -> DocumentControl | None:
                      for role, s in (("prepared", d.prepared), ("reviewed", d.reviewed), ("approved", d.approved))
                      if s is not None)
     return DocumentControl(d.method or "", d.id or "", "" if d.version is None else str(d.version), signoffs)
-
-
-def _subject_from_rule(e: BudgetError) -> BudgetError:
-    """Give top-level schema errors a subject such as "input 'V'" or 'measurand'."""
-    rule = e.rule
-    m = re.match(r"^inputs\.([A-Za-z0-9_]+)(?:[.\[]|: )", rule)
-    if m:
-        rest = rule[len(f"inputs.{m.group(1)}"):].lstrip(".: ")
-        return BudgetError(rest, location=e.location, subject=f"input '{m.group(1)}'")
-    m = re.match(r"^correlations\[(\d+)\][.:]", rule)
-    if m:
-        return BudgetError(rule[len(m.group(0)):].strip(), location=e.location,
-                           subject=f"correlation {int(m.group(1)) + 1}")
-    m = re.match(r"^([a-z_]+)[.:]", rule)
-    if m:
-        return BudgetError(rule[len(m.group(0)):].strip(), location=e.location, subject=m.group(1))
-    return e
 
 
 def _part(top: dict[str, Any], key: str, model: type[BaseModel], doc: Document, spec: BudgetSpec | None) -> Any:
