@@ -99,7 +99,7 @@ def slope(sizes: list[float], times: list[float]) -> float:
 def series(name: str, unit: str, sizes: list[int], make_args, runs: int, limit: float) -> None:  # type: ignore[no-untyped-def]
     done: list[int] = []
     times: list[float] = []
-    print(f"\n{name}")
+    print(f"\n{name}\n")
     print(f"| {unit} | time (s) |")
     print("| ---: | ---: |")
     for size in sizes:
@@ -110,7 +110,7 @@ def series(name: str, unit: str, sizes: list[int], make_args, runs: int, limit: 
         done.append(size)
         times.append(t)
         print(f"| {size:,} | {t:.3f} |", flush=True)
-    print(f"fitted exponent (log-log slope): {slope(done, times):.2f}")
+    print(f"\nfitted exponent (log-log slope): {slope(done, times):.2f}")
 
 
 def main() -> None:
