@@ -7,6 +7,13 @@ BASE = ("ucalc: 1\ntitle: t\nmeasurand: {symbol: y}\nmodel: 'y = %s'\n"
         "inputs:\n  x: {value: 2, components: [{name: a, standard: 0.1}]}\n")
 
 
+def _chain(lines: int, body: str, value: str = "2") -> str:
+    """A model of ``lines`` lines, each using the one before (``body`` with {p} for it), ending in y."""
+    model = ["a1 = x"] + [f"a{i} = " + body.format(p=f"a{i - 1}") for i in range(2, lines + 1)] + [f"y = a{lines}"]
+    return ("ucalc: 1\ntitle: t\nmeasurand: {symbol: y}\nmodel: |\n" + "".join(f"  {m}\n" for m in model)
+            + f"inputs:\n  x: {{value: {value}, components: [{{name: a, standard: 0.001}}]}}\n")
+
+
 def _bomb() -> str:
     lines = ["a0: &a0 [x, x, x, x, x, x, x, x, x]"]
     for i in range(1, 9):
@@ -41,4 +48,18 @@ CASES: dict[str, tuple[bytes, str]] = {
     "not a number": ((BASE % "x").replace("value: 2", "value: .nan").encode(), "'.nan' is not a number"),
     "not a mapping": (b"- 1\n- 2\n", "a budget must be a YAML mapping"),
     "empty file": (b"", "a budget must be a YAML mapping"),
+    # second round: each of these hung or crashed before it was refused
+    "unit string with arithmetic": ((BASE % "x").replace("value: 2,", "value: 2, unit: '10**10**10*m',").encode(),
+                                    "a number may appear only as an exponent"),
+    "unit string exponent 99": ((BASE % "x").replace("value: 2,", "value: 2, unit: 'm**99',").encode(),
+                                "exponents are limited to 12"),
+    "40 chained squares": (_chain(40, "{p}*{p}").encode(), "not finite at the estimates"),
+    "model 1000+ levels deep": (_chain(600, "({p} + x)*1").encode(), "nests more than 1000 levels"),
+    "model of 2000 lines": (_chain(2000, "{p} + x").encode(), "the limit is 1,000"),
+    "YAML list of 10^6 items": (("ucalc: 1\nx: [" + ", ".join(["1"] * 1_000_000) + "]\n").encode(),
+                                "more than 2,500 values"),
+    "YAML 3000 short items": (("ucalc: 1\nx: [" + ",".join(["1"] * 3000) + "]\n").encode(),
+                              "more than 2,500 values"),
+    "YAML 1300 keys": (("ucalc: 1\nx:\n" + "".join(f"  k{i}: {i}\n" for i in range(1300))).encode(),
+                       "more than 2,500 values"),
 }

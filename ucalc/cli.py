@@ -7,6 +7,8 @@ Heavy libraries are imported inside the commands so that ``ucalc --help`` starts
 from __future__ import annotations
 
 import copy
+import math
+import re
 import sys
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
@@ -52,7 +54,7 @@ class _Commands(TyperGroup):
             return super().invoke(ctx)
         except UcalcError as exc:
             for line in error_lines(exc):
-                typer.echo(line, err=True)
+                typer.echo(one_line(line), err=True)
             raise typer.Exit(EXIT_BAD_INPUT) from None
 
     def get_params(self, ctx):  # type: ignore[no-untyped-def]
@@ -106,6 +108,12 @@ FLAGS = {"second_order": "--second-order", "trials": "--trials", "digits": "--di
          "analyte_column": "--analyte-column"}
 
 
+def one_line(text: str) -> str:
+    """A message as one line: control characters from names in the input (a key holding a line break) are
+    shown escaped, so that no text can start a line of its own that looks like FILE:LINE."""
+    return re.sub(r"[\x00-\x1f\x7f-\x9f\u2028\u2029]", lambda m: repr(m.group(0))[1:-1], text)
+
+
 def error_lines(exc: UcalcError) -> list[str]:
     """The lines printed for an error: one per problem, parameters named by their command-line options."""
     if isinstance(exc, BudgetErrors):
@@ -126,7 +134,7 @@ def check(budget: BudgetArg) -> None:
 
     b = check_budget(budget)
     for warning in b.warnings:
-        typer.echo(f"{budget}: warning: {warning}", err=True)
+        typer.echo(one_line(f"{budget}: warning: {warning}"), err=True)
     inputs, lines = len(b.model.inputs), len(b.model.lines)
     typer.echo(f"{budget}: ok ({inputs} input{'s' * (inputs != 1)}, {lines} model line{'s' * (lines != 1)})")
 
@@ -277,6 +285,11 @@ def batch_command(
     = "analyte",
     digits: Annotated[int, typer.Option("--digits", min=1, max=4, help="significant digits of U")] = 2,
     force: Annotated[bool, typer.Option("--force", help="replace an existing output file")] = False,
+    sep: Annotated[str | None, typer.Option("--sep", help="CSV separator: ',' ';' or tab (default: detected)")]
+    = None,
+    decimal: Annotated[str | None, typer.Option("--decimal", help="decimal mark: '.' or ',' (default: detected)")]
+    = None,
+    prefix: Annotated[str, typer.Option("--prefix", help="put before the names of the result columns")] = "",
 ) -> None:
     """Attach U, a result statement and (with a limit) a decision to every sample of a table."""
     from .samples.table import BatchOptions, batch, parse_maps
@@ -285,9 +298,13 @@ def batch_command(
         raise UcalcError("give --limit or --limit-column, not both")
     if loq is not None and loq_column is not None:
         raise UcalcError("give --loq or --loq-column, not both")
+    for option, value in (("--limit", limit), ("--loq", loq)):
+        if value is not None and not math.isfinite(value):
+            raise UcalcError(f"{option} {value}: give a finite number")
     options = BatchOptions(maps=parse_maps(map_ or []), limit=limit, limit_column=limit_column,
                            rule=rule.value.replace("-", "_"), side=side.value,  # type: ignore[arg-type]
-                           loq=loq, loq_column=loq_column, analyte_column=analyte_column, digits=digits)
+                           loq=loq, loq_column=loq_column, analyte_column=analyte_column, digits=digits,
+                           sep=sep, decimal=decimal, prefix=prefix)
     with _progress(True) as progress:
         summary = batch(budget, table, output, options, force=force, progress=progress)
     decided = ", ".join(f"{count} {name}" for name, count in sorted(summary.decisions.items()))

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import ast
 import math
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Container, Mapping
 from dataclasses import dataclass
 from typing import Any
 
@@ -20,6 +20,8 @@ from .errors import ExpressionError
 FUNCTIONS = ("sqrt", "exp", "log", "log10", "sin", "cos", "tan", "abs")
 MAX_LENGTH = 4000
 MAX_DEPTH = 120
+MAX_MODEL_DEPTH = 1000  # nesting of the measurand once every model line is inlined
+MAX_MODEL_LINES = 1000
 
 
 class Node:
@@ -174,18 +176,59 @@ def constant(node: Node) -> float | None:
     return float(value)
 
 
+def _children(node: Node) -> tuple[Node, ...]:
+    if isinstance(node, Bin):
+        return (node.left, node.right)
+    if isinstance(node, Neg | Call):
+        return (node.arg,)
+    return ()
+
+
+def postorder(node: Node, done: Container[int] = ()) -> list[Node]:
+    """Each distinct node of a tree once, children before their parents, leaving out the sub-trees whose root's
+    ``id`` is in ``done`` (already handled by the caller's memo).
+
+    Model lines are inlined by reference, so a chain ``a2 = a1*a1``, ``a3 = a2*a2``... is a graph whose paths
+    double with each line; every walk of a tree goes through this list (no recursion, linear in the nodes).
+    """
+    order: list[Node] = []
+    seen: set[int] = set()
+    stack: list[tuple[Node, bool]] = [(node, False)]
+    while stack:
+        n, expanded = stack.pop()
+        if expanded:
+            order.append(n)
+            continue
+        if id(n) in seen or id(n) in done:
+            continue
+        seen.add(id(n))
+        stack.append((n, True))
+        stack.extend((c, False) for c in reversed(_children(n)) if id(c) not in seen)
+    return order
+
+
+def depth(node: Node, _memo: dict[int, int] | None = None) -> int:
+    """Levels of nesting of a tree (1 for a number or a name)."""
+    levels: dict[int, int] = {} if _memo is None else _memo
+    for n in postorder(node, levels):
+        levels[id(n)] = 1 + max((levels[id(c)] for c in _children(n)), default=0)
+    return levels[id(node)]
+
+
 def names(node: Node) -> list[tuple[str, int]]:
     """The names a tree references, with their columns, in order of first appearance."""
     seen: dict[str, int] = {}
+    visited: set[int] = set()
     stack = [node]
     while stack:
         n = stack.pop()
+        if id(n) in visited:
+            continue
+        visited.add(id(n))
         if isinstance(n, Var):
             seen.setdefault(n.name, n.column)
-        elif isinstance(n, Neg | Call):
-            stack.append(n.arg)
-        elif isinstance(n, Bin):
-            stack.extend((n.right, n.left))
+        else:
+            stack.extend(reversed(_children(n)))
     return list(seen.items())
 
 
@@ -262,12 +305,9 @@ def call(fn: str, a: Node) -> Node:
 def diff(node: Node, name: str, _memo: dict[int, Node] | None = None) -> Node:
     """The exact partial derivative d(node)/d(name) as a new tree (shared subtrees are differentiated once)."""
     memo: dict[int, Node] = {} if _memo is None else _memo
-    key = id(node)
-    if key in memo:
-        return memo[key]
-    result = _diff(node, name, memo)
-    memo[key] = result
-    return result
+    for n in postorder(node, memo):
+        memo[id(n)] = _diff(n, name, memo)
+    return memo[id(node)]
 
 
 def _diff(node: Node, name: str, memo: dict[int, Node]) -> Node:
@@ -276,10 +316,10 @@ def _diff(node: Node, name: str, memo: dict[int, Node]) -> Node:
     if isinstance(node, Var):
         return Num(1.0 if node.name == name else 0.0)
     if isinstance(node, Neg):
-        return neg(diff(node.arg, name, memo))
+        return neg(memo[id(node.arg)])
     if isinstance(node, Bin):
         a, b = node.left, node.right
-        da, db = diff(a, name, memo), diff(b, name, memo)
+        da, db = memo[id(a)], memo[id(b)]  # children come first in postorder()
         if node.op == "+":
             return add(da, db)
         if node.op == "-":
@@ -294,7 +334,7 @@ def _diff(node: Node, name: str, memo: dict[int, Node]) -> Node:
         return mul(node, add(mul(db, call("log", a)), div(mul(b, da), a)))
     if isinstance(node, Call):
         u = node.arg
-        du = diff(u, name, memo)
+        du = memo[id(u)]
         if _is(du, 0.0):
             return Num(0.0)
         outer: Node
@@ -325,23 +365,20 @@ def _diff(node: Node, name: str, memo: dict[int, Node]) -> Node:
 def substitute(node: Node, definitions: Mapping[str, Node], _memo: dict[int, Node] | None = None) -> Node:
     """Replace names defined in ``definitions`` by their trees (used to inline intermediate model lines)."""
     memo: dict[int, Node] = {} if _memo is None else _memo
-    key = id(node)
-    if key in memo:
-        return memo[key]
-    out: Node
-    if isinstance(node, Var):
-        out = definitions.get(node.name, node)
-    elif isinstance(node, Neg):
-        out = Neg(substitute(node.arg, definitions, memo))
-    elif isinstance(node, Bin):
-        out = Bin(node.op, substitute(node.left, definitions, memo), substitute(node.right, definitions, memo),
-                  node.column)
-    elif isinstance(node, Call):
-        out = Call(node.fn, substitute(node.arg, definitions, memo), node.column)
-    else:
-        out = node
-    memo[key] = out
-    return out
+    for n in postorder(node, memo):
+        out: Node
+        if isinstance(n, Var):
+            out = definitions.get(n.name, n)
+        elif isinstance(n, Neg):
+            out = Neg(memo[id(n.arg)])
+        elif isinstance(n, Bin):
+            out = Bin(n.op, memo[id(n.left)], memo[id(n.right)], n.column)
+        elif isinstance(n, Call):
+            out = Call(n.fn, memo[id(n.arg)], n.column)
+        else:
+            out = n
+        memo[id(n)] = out
+    return memo[id(node)]
 
 
 # ---- evaluation backends ------------------------------------------------------------------------------------
@@ -385,45 +422,62 @@ Evaluator = Callable[[Mapping[str, Any]], Any]
 
 
 def compile_tree(node: Node, backend: Mapping[str, Callable[..., Any]]) -> Evaluator:
-    """Compile a tree once into a closure ``f(env) -> value`` for the given backend."""
-    memo: dict[int, Evaluator] = {}
-    return _compile(node, backend, memo)
+    """Compile a tree once into a function ``f(env) -> value`` for the given backend.
+
+    The tree becomes a straight list of steps, one per distinct node, so a sub-tree shared by several parents is
+    evaluated once; each intermediate value is dropped after its last use (arrays of Monte Carlo trials).
+    """
+    order = postorder(node)
+    slot = {id(n): i for i, n in enumerate(order)}
+    steps: list[Callable[[list[Any], Mapping[str, Any]], Any]] = []
+    last_use: dict[int, int] = {}
+    for k, n in enumerate(order):
+        steps.append(_step(n, [slot[id(c)] for c in _children(n)], backend))
+        for c in _children(n):
+            last_use[slot[id(c)]] = k
+    frees: list[tuple[int, ...]] = [() for _ in order]
+    for s, k in last_use.items():
+        frees[k] += (s,)
+    program = list(zip(steps, frees, strict=True))
+    size = len(order)
+
+    def run(env: Mapping[str, Any]) -> Any:
+        values: list[Any] = [None] * size
+        for k, (step, free) in enumerate(program):
+            values[k] = step(values, env)
+            for s in free:
+                values[s] = None
+        return values[-1]
+
+    return run
 
 
-def _compile(node: Node, fns: Mapping[str, Callable[..., Any]], memo: dict[int, Evaluator]) -> Evaluator:
-    key = id(node)
-    if key in memo:
-        return memo[key]
-    f: Evaluator
+def _step(node: Node, args: list[int], fns: Mapping[str, Callable[..., Any]]
+          ) -> Callable[[list[Any], Mapping[str, Any]], Any]:
+    """One step of a compiled tree: its value from the values of its children (``args`` are their slots)."""
     if isinstance(node, Num):
-        v = node.value
-        f = lambda env: v  # noqa: E731
-    elif isinstance(node, Var):
+        c = node.value
+        return lambda v, env: c
+    if isinstance(node, Var):
         n = node.name
-        f = lambda env: env[n]  # noqa: E731
-    elif isinstance(node, Neg):
-        g = _compile(node.arg, fns, memo)
-        f = lambda env: -g(env)  # noqa: E731
-    elif isinstance(node, Bin):
-        a = _compile(node.left, fns, memo)
-        b = _compile(node.right, fns, memo)
+        return lambda v, env: env[n]
+    if isinstance(node, Neg):
+        (i,) = args
+        return lambda v, env: -v[i]
+    if isinstance(node, Bin):
+        i, j = args
         if node.op == "+":
-            f = lambda env: a(env) + b(env)  # noqa: E731
-        elif node.op == "-":
-            f = lambda env: a(env) - b(env)  # noqa: E731
-        elif node.op == "*":
-            f = lambda env: a(env) * b(env)  # noqa: E731
-        elif node.op == "/":
-            f = lambda env: a(env) / b(env)  # noqa: E731
-        else:
-            p = fns["**"]
-            f = lambda env: p(a(env), b(env))  # noqa: E731
-    elif isinstance(node, Call):
-        g = _compile(node.arg, fns, memo)
+            return lambda v, env: v[i] + v[j]
+        if node.op == "-":
+            return lambda v, env: v[i] - v[j]
+        if node.op == "*":
+            return lambda v, env: v[i] * v[j]
+        if node.op == "/":
+            return lambda v, env: v[i] / v[j]
+        p = fns["**"]
+        return lambda v, env: p(v[i], v[j])
+    if isinstance(node, Call):
+        (i,) = args
         fn = fns[node.fn]
-        f = lambda env: fn(g(env))  # noqa: E731
-    else:  # pragma: no cover
-        raise TypeError(node)
-    memo[key] = f
-    return f
-
+        return lambda v, env: fn(v[i])
+    raise TypeError(node)  # pragma: no cover

@@ -36,27 +36,139 @@ def registry() -> Any:
     return reg
 
 
+MAX_UNIT_LENGTH = 100
+MAX_UNIT_EXPONENT = 12
+_SUPERSCRIPT_RUN = re.compile("[⁻⁺]?[⁰¹²³⁴⁵⁶⁷⁸⁹]+")
+_SUPERSCRIPT_DIGITS = str.maketrans("⁻⁺⁰¹²³⁴⁵⁶⁷⁸⁹", "-+0123456789")
+_UNIT_TOKEN = re.compile(r"\s*(?:(?P<name>(?:[^\W\d]|[°%‰])+)|(?P<number>\d+(?:\.\d+)?)|(?P<op>\*\*|[*/^·()+-]))")
+
+
 def parse_unit(text: str | None) -> Any:
-    """Parse a unit string ('' or None is dimensionless). Raises ExpressionError for unknown units."""
+    """Parse a unit string ('' or None is dimensionless). Raises ExpressionError for unknown units.
+
+    The grammar is ours, not pint's expression evaluator: unit names joined by ``*``, ``·``, a space or ``/``,
+    parentheses, and small constant exponents (``**2``, ``^-1``); the only number allowed elsewhere is a ``1``
+    as in ``1/K``. So a unit string does no arithmetic, and its parse is linear in its length.
+    """
     reg = registry()
     if text is None or not str(text).strip():
         return reg.dimensionless
     cleaned = str(text).strip().replace("µ", "u").replace("μ", "u")
-    if "__" in cleaned or len(cleaned) > 100:
+    if "__" in cleaned or len(cleaned) > MAX_UNIT_LENGTH:
         raise ExpressionError(f"unit '{text}' is not a valid unit")
-    try:
-        unit = reg.parse_units(cleaned)
-    except Exception as exc:  # pint raises several unrelated types for bad text
-        raise ExpressionError(f"unit '{text}' is not known ({type(exc).__name__})") from None
-    if is_offset(unit):
-        # °C and °F in a measurement model are temperature differences or values on one scale; as delta units
-        # they multiply and subtract as arithmetic needs (converting absolute °C to K is not done)
-        delta = {"degree_Celsius": "delta_degC", "degree_Fahrenheit": "delta_degF"}.get(str(unit))
-        if delta is None:
-            raise ExpressionError(f"unit '{text}' has an offset zero and cannot enter a product; "
-                                  "give temperature differences in K")
-        unit = reg.parse_units(delta)
-    return unit
+    cleaned = _SUPERSCRIPT_RUN.sub(lambda m: "**" + m.group(0).translate(_SUPERSCRIPT_DIGITS), cleaned)
+    return _UnitParser(cleaned, str(text)).parse()
+
+
+class _UnitParser:
+    """Recursive descent over the tokens of a unit string (nesting is bounded by the string's length)."""
+
+    def __init__(self, text: str, shown: str) -> None:
+        self.shown = shown
+        self.tokens: list[tuple[str, str, int]] = []
+        pos = 0
+        while pos < len(text):
+            m = _UNIT_TOKEN.match(text, pos)
+            if m is None or m.end() == pos:
+                if not text[pos:].strip():
+                    break
+                self.fail(f"'{text[pos]}' cannot appear in a unit", pos)
+            assert m is not None
+            kind = m.lastgroup or ""
+            self.tokens.append((kind, m.group(kind), m.start(kind)))
+            pos = m.end()
+        self.i = 0
+
+    def fail(self, why: str, pos: int) -> None:
+        raise ExpressionError(f"unit '{self.shown}' is not a valid unit: {why} (character {pos + 1})")
+
+    def peek(self) -> tuple[str, str, int]:
+        return self.tokens[self.i] if self.i < len(self.tokens) else ("end", "", len(self.shown))
+
+    def take(self) -> tuple[str, str, int]:
+        token = self.peek()
+        self.i += 1
+        return token
+
+    def parse(self) -> Any:
+        unit = self.product()
+        kind, value, pos = self.peek()
+        if kind != "end":
+            self.fail(f"unexpected '{value}'", pos)
+        return unit
+
+    def product(self) -> Any:
+        unit = self.power()
+        while True:
+            kind, value, _ = self.peek()
+            if value in ("*", "·"):
+                self.take()
+                unit = unit * self.power()
+            elif value == "/":
+                self.take()
+                unit = unit / self.power()
+            elif kind == "name" or value == "(":
+                unit = unit * self.power()  # a space between names multiplies
+            else:
+                return unit
+
+    def power(self) -> Any:
+        unit = self.atom()
+        if self.peek()[1] in ("**", "^"):
+            self.take()
+            unit = unit ** self.exponent()
+        return unit
+
+    def atom(self) -> Any:
+        kind, value, pos = self.take()
+        if kind == "name":
+            try:
+                unit = registry().parse_units(value)
+            except Exception as exc:  # pint raises several unrelated types for unknown names
+                raise ExpressionError(f"unit '{self.shown}' is not known ({type(exc).__name__})") from None
+            if is_offset(unit):
+                # °C and °F in a measurement model are temperature differences or values on one scale; as delta
+                # units they multiply and subtract as arithmetic needs (converting absolute °C to K is not done)
+                delta = {"degree_Celsius": "delta_degC", "degree_Fahrenheit": "delta_degF"}.get(str(unit))
+                if delta is None:
+                    raise ExpressionError(f"unit '{self.shown}' has an offset zero and cannot enter a product; "
+                                          "give temperature differences in K")
+                unit = registry().parse_units(delta)
+            return unit
+        if kind == "number" and value == "1":
+            return registry().dimensionless
+        if value == "(":
+            unit = self.product()
+            if self.take()[1] != ")":
+                self.fail("a '(' is not closed", pos)
+            return unit
+        if kind == "number":
+            self.fail("a number may appear only as an exponent or as the 1 of '1/unit'", pos)
+        self.fail(f"unexpected '{value}'" if value else "a unit name is missing", pos)
+
+    def exponent(self) -> float:
+        kind, value, pos = self.take()
+        parenthesised = value == "("
+        if parenthesised:
+            kind, value, pos = self.take()
+        sign = 1.0
+        if value in ("+", "-"):
+            sign = -1.0 if value == "-" else 1.0
+            kind, value, pos = self.take()
+        if kind != "number":
+            self.fail("an exponent must be a number", pos)
+        number = float(value)
+        if parenthesised and self.peek()[1] == "/":
+            self.take()
+            kind, below, pos = self.take()
+            if kind != "number" or float(below) == 0:
+                self.fail("an exponent must be a number", pos)
+            number /= float(below)
+        if parenthesised and self.take()[1] != ")":
+            self.fail("a '(' is not closed", pos)
+        if number > MAX_UNIT_EXPONENT:
+            self.fail(f"exponents are limited to {MAX_UNIT_EXPONENT}", pos)
+        return sign * number
 
 
 def is_offset(unit: Any) -> bool:

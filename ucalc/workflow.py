@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Literal
@@ -14,6 +15,7 @@ if TYPE_CHECKING:
     from .planning import Improvement
 
 Method = Literal["gum", "mc", "both"]
+MAX_TRIALS = 100_000_000  # the values of every trial are kept (8 bytes each) for the coverage interval
 
 
 @dataclass(frozen=True)
@@ -45,6 +47,28 @@ def check_budget(path: str | Path) -> Budget:
 def evaluate_budget(budget: Budget, *, method: Method = "gum", second_order: bool = False,
                     mc: MonteCarloOptions | None = None, progress: Progress | None = None) -> Evaluation:
     """Propagate a loaded budget by the GUM and, if asked, by Monte Carlo with the GUM validated against it."""
+    from .errors import ComputationError, Location
+
+    trials = (mc or MonteCarloOptions()).trials
+    if method != "gum" and trials > MAX_TRIALS:
+        raise ComputationError(f"{trials:,} trials is more than the {MAX_TRIALS:,} this tool runs; 10^6 usually "
+                               "suffice (JCGM 101 7.2.2), or use --adaptive", subject="trials",
+                               location=Location(budget.source))
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", RuntimeWarning)  # non-finite values are counted and reported
+            return _evaluate(budget, method, second_order, mc, progress)
+    except OverflowError:
+        raise ComputationError("a term of the propagation overflows (the second-order terms, with such large "
+                               "uncertainties?); express the inputs in other units or use Monte Carlo",
+                               location=Location(budget.source)) from None
+    except MemoryError:
+        raise ComputationError(f"not enough memory for {trials:,} Monte Carlo trials; give fewer with --trials",
+                               location=Location(budget.source)) from None
+
+
+def _evaluate(budget: Budget, method: Method, second_order: bool, mc: MonteCarloOptions | None,
+              progress: Progress | None) -> Evaluation:
     from .api import propagate, simulate
 
     gum = propagate(budget, second_order=second_order)
@@ -144,7 +168,13 @@ def load_with_settings(path: str | Path, settings: list[str] | None = None) -> t
 
 def improve(path: str | Path, *, target: str | None = None, settings: list[str] | None = None) -> Improvement:
     """What each change to the budget would buy, and the fewest actions that reach ``target``."""
+    from .errors import ComputationError
     from .planning import improve as plan
 
     doc, budget = load_with_settings(path, settings)
-    return plan(doc, budget, target)
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", RuntimeWarning)
+            return plan(doc, budget, target)
+    except ComputationError as exc:
+        raise exc.located(str(path)) from None

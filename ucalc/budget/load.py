@@ -460,6 +460,11 @@ def _build_model(
         parsed.append((name, body, where, where.column))
         defined_later.add(name)
     user_lines = len(parsed)
+    written = sum(1 for raw in text.split("\n") if raw.split("#", 1)[0].strip())
+    if written > expr.MAX_MODEL_LINES:
+        errors.append(BudgetError(f"the model has {written:,} lines; the limit is {expr.MAX_MODEL_LINES:,}",
+                                  location=doc.locate(("model",)), subject="model"))
+        return None
     for index, raw in enumerate(text.split("\n")):
         body = raw.split("#", 1)[0]
         if not body.strip():
@@ -551,8 +556,14 @@ def _build_model(
     scale = units.factor(last.unit, target)
     definitions: dict[str, expr.Node] = {}
     memo: dict[int, expr.Node] = {}
+    levels: dict[int, int] = {}
     for line in lines:
         definitions[line.name] = expr.substitute(line.tree, definitions, memo)
+        if expr.depth(definitions[line.name], levels) > expr.MAX_MODEL_DEPTH:
+            errors.append(BudgetError(f"the model nests more than {expr.MAX_MODEL_DEPTH} levels deep once its lines "
+                                      "are written into each other; combine lines or simplify the model",
+                                      location=line.location, subject=f"model line '{line.name}'"))
+            return None
     used = {n for n, _ in expr.names(definitions[last.name])}
     inputs = tuple(n for n in quantities if n in used)
     return Model(tuple(lines), inputs, scale, definitions[last.name])

@@ -6,8 +6,9 @@ from typing import Any
 
 
 def _cell(value: Any) -> Any:
-    """Keep user text from breaking Markdown tables."""
+    """Keep user text from breaking Markdown tables or carrying HTML (which Markdown passes through)."""
     if isinstance(value, str):
+        value = value.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
         return value.replace("|", "\\|").replace("\n", " ")
     return value
 

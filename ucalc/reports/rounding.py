@@ -9,7 +9,7 @@ E-notation with the same digits. Where U is zero or not finite the estimate is s
 from __future__ import annotations
 
 import math
-from decimal import ROUND_HALF_UP, Decimal
+from decimal import ROUND_HALF_UP, Decimal, localcontext
 from typing import Any
 
 SCIENTIFIC_ABOVE = 6  # last significant digit at 10^6 or above: E-notation (no long runs of zeros)
@@ -36,7 +36,9 @@ def round_pair(value: float, u: float, digits: int = 2) -> tuple[str, str]:
     exponent = ru.as_tuple().exponent
     assert isinstance(exponent, int)
     place = Decimal(1).scaleb(exponent)
-    rv = Decimal(repr(float(value))).quantize(place, rounding=ROUND_HALF_UP)
+    with localcontext() as context:
+        context.prec = 1000  # enough digits for any double at any place (U far below y, 1e-300 to 1e300)
+        rv = Decimal(repr(float(value))).quantize(place, rounding=ROUND_HALF_UP)
     if rv == 0:
         rv = abs(rv)
     if exponent >= SCIENTIFIC_ABOVE or exponent <= SCIENTIFIC_BELOW:

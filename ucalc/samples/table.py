@@ -10,13 +10,14 @@ quantification are documented in docs/batch.md.
 from __future__ import annotations
 
 import math
+import warnings
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 from ..budget.definitions import Budget
-from ..errors import BudgetError, BudgetErrors, Location, OptionError, UcalcError
+from ..errors import BudgetError, BudgetErrors, ComputationError, Location, OptionError, UcalcError
 from .decisions import RULE_TEXT, Rule, Side, decide, decide_below_loq, probability_of_conformance
 
 CHUNK = 20_000
@@ -34,6 +35,9 @@ class BatchOptions:
     loq_column: str | None = None
     analyte_column: str = "analyte"
     digits: int = 2
+    sep: str | None = None
+    decimal: str | None = None
+    prefix: str = ""
 
 
 @dataclass(frozen=True)
@@ -108,9 +112,12 @@ def _per_row(frame: Any, option: str, column: str | None, value: float | None) -
     import numpy as np
 
     if column:
-        if column not in frame.columns:
+        from ..tables import find_column
+
+        found = find_column(frame, column)
+        if found is None:
             raise OptionError(option, f"the table has no column '{column}'")
-        return _numbers(frame, column)
+        return _numbers(frame, found)
     return np.full(len(frame), np.nan if value is None else value)
 
 
@@ -121,11 +128,19 @@ def _per_row_names(budget: Budget, raw_inputs: dict[str, Any], frame: Any, maps:
     if unknown:
         raise OptionError("maps", f"'{unknown[0]}' is not an input of the budget; inputs are "
                                   f"{', '.join(sorted(names))}")
-    missing = [(n, c) for n, c in maps.items() if c not in frame.columns]
+    from ..tables import find_column
+
+    missing = [(n, c) for n, c in maps.items() if find_column(frame, c) is None]
     if missing:
         raise OptionError("maps", f"'{missing[0][0]}={missing[0][1]}': the table has no column '{missing[0][1]}'")
-    out = {n: maps.get(n, n) for n in sorted(names) if maps.get(n, n) in frame.columns}
-    return {n: c for n, c in out.items() if n in budget.model.inputs}
+    out = {n: find_column(frame, c) for n, c in maps.items()}
+    taken = set(out.values()) | {n for n in names if n in frame.columns}
+    for n in sorted(set(names) - set(out)):
+        # exact names first; a column named exactly after another input (or mapped) is not taken by case folding
+        column = n if n in frame.columns else find_column(frame[[c for c in frame.columns if c not in taken]], n)
+        if column is not None:
+            out[n] = column
+    return {n: c for n, c in sorted(out.items()) if c is not None and n in budget.model.inputs}
 
 
 def _budget_limits(budget: Budget, options: BatchOptions, positions: Any, loq: Any) -> float:
@@ -168,6 +183,7 @@ def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
     """The output table (input columns plus results) and a summary; ``source`` is a budget, a budget file or a
     folder of budgets."""
     import numpy as np
+    import pandas as pd
 
     from ..budget.load import load_budget
     from ..engines.batch import expanded_at, propagate_rows, row_input
@@ -175,7 +191,7 @@ def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
     from ..reports.document import pretty_unit
 
     n = len(frame)
-    out = frame.copy(deep=False)  # new columns only: the caller's frame is left as it was
+    out = pd.DataFrame(index=frame.index)
     results: dict[str, Any] = {c: np.full(n, np.nan) for c in ("value", "u", "nu_eff", "k", "U", "U_rel")}
     text_type = np.dtypes.StringDType()
     text: dict[str, Any] = {c: np.full(n, "", dtype=text_type) for c in ("unit", "statement", "error")}
@@ -194,6 +210,10 @@ def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
                              f"({budget.reporting.reason}); batch states GUM results per row, so it cannot follow "
                              "that budget")
         columns = _per_row_names(budget, budget.raw_inputs, frame, options.maps)
+        if not columns:
+            raise BudgetError(f"no column is named after an input of {budget.source} "
+                              f"({', '.join(budget.model.inputs)}); name a column after an input or give "
+                              "--map INPUT=COLUMN", location=Location(frame.attrs.get("source", "table"), 1))
         lod = _budget_limits(budget, options, positions, loq)
         unit = pretty_unit(budget.measurand.unit)
         symbol = budget.measurand.symbol
@@ -275,7 +295,25 @@ def run_batch(source: Path | Budget, frame: Any, options: BatchOptions,
         out.loc[below, column] = np.nan  # below the LOQ a result is not reported as a number
     out["error"] = text["error"].astype(object)
     failed_rows = int(np.count_nonzero(text["error"] != ""))
-    return out, BatchSummary(n, failed_rows, decisions, int(below.sum()), rule_text)
+    return _assemble(frame, out, options.prefix), BatchSummary(n, failed_rows, decisions, int(below.sum()), rule_text)
+
+
+def _assemble(frame: Any, results: Any, prefix: str) -> Any:
+    """The table's own columns, unchanged and first, then the result columns (named with ``prefix``).
+
+    A result column never replaces a column of the table: a clash is refused, with the option that avoids it.
+    """
+    import pandas as pd
+
+    results = results.rename(columns=lambda c: f"{prefix}{c}")
+    for column in results.columns:
+        results[column] = results[column].where(results[column] != "", None)  # empty text is an empty cell
+    clash = [c for c in results.columns if c in frame.columns]
+    if clash:
+        raise BudgetError(f"the table already has a column '{clash[0]}', which ucalc writes results to; rename "
+                          f"it, or give --prefix (--prefix ucalc_ writes ucalc_{clash[0].removeprefix(prefix)} ...)",
+                          location=Location(frame.attrs.get("source", "table"), 1))
+    return pd.concat([frame, results], axis=1)
 
 
 def batch(budget: str | Path, table: str | Path, output: str | Path, options: BatchOptions, *,
@@ -289,10 +327,15 @@ def batch(budget: str | Path, table: str | Path, output: str | Path, options: Ba
     table_format(output)
     if Path(output).exists() and not force:
         raise OutputError(output, "exists already; use --force to replace it")
-    frame = read_table(table)
+    frame = read_table(table, sep=options.sep, decimal=options.decimal)
     if len(frame) == 0:
         raise BudgetErrors([BudgetError("the table has no rows", location=Location(str(table)))])
-    result, summary = run_batch(Path(budget), frame, options, progress)
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", RuntimeWarning)  # rows that overflow are reported in 'error'
+            result, summary = run_batch(Path(budget), frame, options, progress)
+    except ComputationError as exc:
+        raise exc.located(str(budget)) from None
     inputs = [table, budget] if Path(budget).is_file() else [table, *_budget_files(Path(budget))]
-    written = write_table(result, output, force=force, inputs=inputs)
+    written = write_table(result, output, force=force, inputs=inputs, dialect=frame.attrs.get("dialect"))
     return dataclasses.replace(summary, output=written)
