@@ -9,6 +9,7 @@ from __future__ import annotations
 import copy
 import io
 import os
+import re
 from pathlib import Path
 
 import pytest
@@ -190,3 +191,139 @@ def test_random_bytes_give_located_errors(tmp_path_factory: pytest.TempPathFacto
     except BudgetErrors as exc:
         for e in exc.errors:
             assert e.location is not None and e.location.file == str(path)
+
+
+# ---- chained models that share sub-expressions -----------------------------------------------------------------
+
+@st.composite
+def chained_models(draw: st.DrawFn) -> str:
+    """Model lines each built from earlier lines, often the same one twice (a shared sub-tree once inlined)."""
+    count = draw(st.integers(2, 60))
+    lines = ["a1 = x"]
+    for i in range(2, count + 1):
+        p, q = (f"a{draw(st.integers(max(1, i - 3), i - 1))}" for _ in range(2))
+        form = draw(st.sampled_from(["{p}*{p}", "{p} + {q}", "{p}*{q}/x", "sqrt({p}*{p})", "{p} - {q} + x",
+                                     "exp(log({p}))", "({p} + {p})/2", "{p}**2/{q}"]))
+        lines.append(f"a{i} = " + form.format(p=p, q=q))
+    lines.append(f"y = a{count}")
+    return ("ucalc: 1\ntitle: chain\nmeasurand: {symbol: y}\nmodel: |\n" + "".join(f"  {m}\n" for m in lines)
+            + "inputs:\n  x: {value: 1.01, components: [{name: a, standard: 0.001}]}\n")
+
+
+@fuzz(300)
+@given(chained_models())
+def test_chained_models_give_results_or_located_errors(text: str) -> None:
+    _outcome(text)
+
+
+# ---- unit strings ------------------------------------------------------------------------------------------------
+
+UNIT_NAMES = st.sampled_from(["mg", "g", "kg", "L", "mL", "µg", "ug", "s", "min", "mol", "K", "count", "m", "ppm",
+                              "percent", "%", "°C", "ohm"])
+
+
+@fuzz(1500)
+@given(st.text(alphabet="mgLsK°µ%()*/^ .-+0123456789e_xa", max_size=30) | st.text(max_size=20))
+def test_unit_strings_parse_or_give_a_message(text: str) -> None:
+    from ucalc.units import parse_unit
+
+    try:
+        parse_unit(text)
+    except ExpressionError as exc:
+        assert text.strip() in exc.rule or len(text) > 100 or "__" in text
+
+
+@fuzz(500)
+@given(st.lists(st.tuples(UNIT_NAMES, st.integers(-3, 3).filter(bool), st.sampled_from(["*", "/", " "])),
+                min_size=1, max_size=4))
+def test_unit_grammar_agrees_with_pint(parts: list[tuple[str, int, str]]) -> None:
+    from ucalc.units import parse_unit, registry
+
+    text = ""
+    for i, (name, exponent, join) in enumerate(parts):
+        term = name if exponent == 1 else f"{name}**{exponent}"
+        text += (join if i else "") + term
+    ours = parse_unit(text)
+    reference = registry().parse_units(text.replace("µ", "u").replace(" ", "*"))  # pint's own parser
+    delta = {"degree_Celsius": "delta_degree_Celsius"}
+    expected = registry().Quantity(1.0, reference)
+    if any(u in str(reference) for u in delta):
+        return  # °C is read as a temperature difference by design (docs/budget-format.md)
+    assert registry().Quantity(1.0, ours).to(expected.units).magnitude == pytest.approx(1.0, rel=1e-12)
+
+
+# ---- tables in the separators and decimal marks of common spreadsheet locales --------------------------------
+
+LOCALES = [(",", "."), (";", ","), ("\t", "."), ("\t", ","), (";", ".")]
+
+
+@fuzz(300)
+@given(st.sampled_from(LOCALES),
+       st.lists(st.tuples(st.from_regex(r"[A-Z][A-Za-z0-9 _-]{0,8}", fullmatch=True),
+                          st.floats(-1e6, 1e6, allow_nan=False).map(lambda v: round(v, 4)),
+                          st.floats(0.001, 1e3).map(lambda v: round(v, 6))), min_size=1, max_size=30))
+def test_locale_tables_read_back_their_numbers(tmp_path_factory: pytest.TempPathFactory,
+                                               locale: tuple[str, str], rows: list) -> None:
+    import csv as csvmod
+
+    from ucalc.tables import read_table
+
+    sep, decimal = locale
+    stream = io.StringIO()
+    writer = csvmod.writer(stream, delimiter=sep, lineterminator="\n")
+    writer.writerow(["sample", "c_inst", "f_dil"])
+    for sample, a, b in rows:
+        writer.writerow([sample, repr(a).replace(".", decimal), repr(b).replace(".", decimal)])
+    path = tmp_path_factory.mktemp("locale") / "t.csv"
+    path.write_text(stream.getvalue(), encoding="utf-8")
+    try:
+        frame = read_table(path)
+    except UcalcError as exc:  # only an ambiguity whose message names the option may stop it
+        assert "give --" in str(exc), str(exc)
+        return
+    assert list(frame["sample"]) == [s for s, _, _ in rows]
+    assert [float(v) for v in frame["c_inst"]] == [a for _, a, _ in rows]
+    assert [float(v) for v in frame["f_dil"]] == [b for _, _, b in rows]
+
+
+# ---- formula injection in output tables ----------------------------------------------------------------------
+
+INJECTION = st.tuples(st.sampled_from(["=", "+", "-", "@", "\t", "\r", "", "=cmd|' /C calc'!", "@SUM("]),
+                      st.text(max_size=20)).map("".join)
+
+
+@fuzz(300)
+@given(st.lists(INJECTION, min_size=1, max_size=10), st.sampled_from(LOCALES))
+def test_injection_strings_never_become_formulas(tmp_path_factory: pytest.TempPathFactory, texts: list[str],
+                                                 locale: tuple[str, str]) -> None:
+    import csv as csvmod
+    import zipfile
+
+    import pandas as pd
+    from openpyxl import load_workbook
+
+    from ucalc.tables import CSV_TEXT_PREFIX, Dialect, _clean, write_table
+
+    folder = tmp_path_factory.mktemp("inject")
+    frame = pd.DataFrame({"sample": texts, "value": [1.5] * len(texts)})
+    write_table(frame, folder / "o.csv", dialect=Dialect(*locale))
+    rows = list(csvmod.reader(io.StringIO((folder / "o.csv").read_bytes().decode("utf-8"), newline=""),
+                              delimiter=locale[0]))
+    numeric = all(re.fullmatch(r"-?(0|[1-9]\d{0,14})(\.\d{1,15})?([eE][+-]?\d{1,3})?", t.strip())
+                  for t in texts if t.strip()) and any(t.strip() for t in texts)
+    for text, row in zip(texts, rows[1:], strict=True):
+        shown = _clean(text)
+        if numeric or not text:
+            continue
+        if shown.startswith(("=", "+", "-", "@", "\t", "\r")):
+            assert row[0] == CSV_TEXT_PREFIX + shown  # OWASP CSV injection advice
+        else:
+            assert row[0] == shown
+    write_table(frame, folder / "o.xlsx")
+    with zipfile.ZipFile(folder / "o.xlsx") as z:
+        sheet = z.read("xl/worksheets/sheet1.xml").decode("utf-8")
+    assert "<f>" not in sheet and "<f " not in sheet
+    cells = [row[0] for row in load_workbook(folder / "o.xlsx").active.iter_rows(min_row=2, values_only=True)]
+    if not numeric:
+        # empty text is an empty cell; an XML reader turns CR into LF (XML 1.0 2.11)
+        assert cells == [_clean(t).replace("\r\n", "\n").replace("\r", "\n") or None for t in texts]
