@@ -426,22 +426,12 @@ def _kinks(budget: Budget, env: dict[str, Any]) -> str:
     from .. import expr
 
     found: list[str] = []
-
-    def walk(node: Any) -> None:
-        if isinstance(node, expr.Call):
-            if node.fn == "abs":
-                try:
-                    at = expr.compile_tree(node.arg, expr.FLOAT_BACKEND)(env)
-                except (ArithmeticError, ValueError):
-                    at = None
-                if at == 0.0:
-                    found.append("the argument of abs()")
-            walk(node.arg)
-        elif isinstance(node, expr.Bin):
-            walk(node.left)
-            walk(node.right)
-        elif isinstance(node, expr.Neg):
-            walk(node.arg)
-
-    walk(budget.model.inlined)
+    for node in expr.postorder(budget.model.inlined):  # each shared sub-tree once, no recursion
+        if isinstance(node, expr.Call) and node.fn == "abs":
+            try:
+                at = expr.compile_tree(node.arg, expr.FLOAT_BACKEND)(env)
+            except (ArithmeticError, ValueError):
+                at = None
+            if at == 0.0:
+                found.append("the argument of abs()")
     return found[0] if found else ""
