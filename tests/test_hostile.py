@@ -79,13 +79,21 @@ def test_underflowing_product_is_explained(write_budget) -> None:
     assert r.exit_code == 2 and "underflows" in r.stderr
 
 
-def test_effective_dof_below_one(write_budget) -> None:
+def test_nearly_cancelling_correlation_keeps_the_sample_dof(write_budget) -> None:
+    # a - b from the same two paired results (dof 1 each, r = 0.999): the paired difference is a t with 1 dof
+    # (Student), so nu_eff = 1 and k = t_0.975(1) = 12.706 (scipy.stats); before, the budget was refused with an
+    # effective dof below 1
+    from scipy import stats
+
     text = ("ucalc: 1\ntitle: t\nmeasurand: {symbol: y}\nmodel: 'y = a - b'\ninputs:\n"
             "  a: {value: 2, components: [{name: a, standard: 1, dof: 1}]}\n"
             "  b: {value: 1, components: [{name: b, standard: 1, dof: 1}]}\n"
             "correlations:\n  - {between: [a, b], r: 0.999}\n")
-    r = run(write_budget, text)
-    assert r.exit_code == 2 and "effective degrees of freedom" in r.stderr and "below 1" in r.stderr
+    r = run(write_budget, text, "-f", "json")
+    assert r.exit_code == 0, r.output
+    data = json.loads(r.stdout)
+    assert data["effective_dof"] == pytest.approx(1.0, rel=1e-9)
+    assert data["coverage_factor"] == pytest.approx(stats.t.ppf(0.975, 1), rel=1e-9)
 
 
 def test_exit_codes(write_budget, monkeypatch) -> None:
@@ -184,13 +192,10 @@ def test_markdown_report_escapes_html(write_budget, tmp_path) -> None:
 
 
 def test_improve_computation_errors_name_the_file(write_budget) -> None:
-    text = ("ucalc: 1\ntitle: t\nmeasurand: {symbol: y}\nmodel: 'y = a - b'\ninputs:\n"
-            "  a: {value: 2, components: [{name: a, standard: 1, dof: 1}]}\n"
-            "  b: {value: 1, components: [{name: b, standard: 1, dof: 1}]}\n"
-            "correlations:\n  - {between: [a, b], r: 0.999}\n")
+    text = (BASE % "x * x").replace("value: 2", "value: 1e-300").replace("standard: 0.1", "standard: 1e-302")
     path = write_budget(text)
     r = runner.invoke(app, ["improve", str(path)])
-    assert r.exit_code == 2 and r.stderr.startswith(str(path)) and "below 1" in r.stderr
+    assert r.exit_code == 2 and r.stderr.startswith(str(path)) and "underflows" in r.stderr, r.output
 
 
 # ---- outputs ---------------------------------------------------------------------------------------------------

@@ -152,17 +152,41 @@ def test_coverage_of_the_same_mean_used_twice_by_simulation() -> None:
     assert covered.mean() == pytest.approx(0.95, abs=0.002)  # binomial sd 0.00034 at 4e5 experiments
 
 
-def test_cancelling_correlations_keep_the_smaller_dof(write_budget) -> None:
-    # JCGM 100 eq. (G.2b) over the terms one by one, with u_c^2 including the correlation terms: where correlation
-    # cancels variance the kernel keeps this (smaller) nu_eff
+def test_difference_of_paired_means_has_the_sample_dof(write_budget) -> None:
+    # y = a - b with a, b the means of the same 11 paired results, r between them taken from the data: the paired
+    # difference is a t with n - 1 = 10 dof exactly (Student's paired t; JCGM 100 G.3), so nu_eff = 10 although
+    # the correlation cancels variance
     text = ("ucalc: 1\ntitle: t\nmeasurand: {symbol: y}\nmodel: 'y = a - b'\ninputs:\n"
             "  a: {value: 2, components: [{name: a, standard: 1, dof: 10}]}\n"
             "  b: {value: 1, components: [{name: b, standard: 1, dof: 10}]}\n"
             "correlations:\n  - {between: [a, b], r: 0.6}\n")
     result = propagate(load_budget_text(text))
-    uc2 = 1 + 1 - 2 * 0.6
-    assert result.effective_dof == pytest.approx(uc2**2 / (1 / 10 + 1 / 10), rel=1e-12)
+    assert result.effective_dof == pytest.approx(10.0, rel=1e-12)
     assert any("correlation terms lower u_c^2" in n for n in result.notes)
+    # numpy simulation of the whole experiment: 11 paired results with true correlation 0.6; the lab states
+    # u(a), u(b) = s/sqrt(11) and r = the sample correlation, then k = t_0.975(nu_eff) from the kernel
+    rng = np.random.default_rng(7)
+    n, runs = 11, 100_000
+    cov = np.array([[1.0, 0.6], [0.6, 1.0]])
+    data = rng.multivariate_normal([0.0, 0.0], cov, size=(runs, n))
+    means = data.mean(axis=1)
+    c = np.einsum("rki,rkj->rij", data - means[:, None, :], data - means[:, None, :]) / (n - 1)
+    uc = np.sqrt(c[:, 0, 0] + c[:, 1, 1] - 2 * c[:, 0, 1]) / math.sqrt(n)
+    covered = np.abs(means[:, 0] - means[:, 1]) <= result.coverage_factor * uc
+    assert covered.mean() == pytest.approx(0.95, abs=0.003)  # binomial sd 0.0007 at 1e5 experiments
+
+
+def test_one_type_a_estimate_used_with_other_coefficients_keeps_its_dof(write_budget) -> None:
+    # y = 2 x1 - x2 with x1, x2 the same mean of five results (r = 1) is y = xbar: a scaled t with 4 dof
+    # (JCGM 100 G.3); before, the budget was refused with nu_eff = 0.235
+    text = ("ucalc: 1\ntitle: t\nmeasurand: {symbol: y}\nmodel: 'y = 2*x1 - x2'\ninputs:\n"
+            "  x1: {value: 2, components: [{name: s, standard: 0.1, dof: 4}]}\n"
+            "  x2: {value: 1, components: [{name: s, standard: 0.1, dof: 4}]}\n"
+            "correlations:\n  - {between: [x1, x2], r: 1}\n")
+    result = propagate(load_budget_text(text))
+    assert result.standard_uncertainty == pytest.approx(0.1, rel=1e-12)
+    assert result.effective_dof == pytest.approx(4.0, rel=1e-12)
+    assert result.coverage_factor == pytest.approx(stats.t.ppf(0.975, 4), rel=1e-12)  # scipy.stats reference
 
 
 def test_variance_shares_add_up_and_stay_below_one() -> None:
@@ -236,6 +260,24 @@ def test_second_order_uses_the_stated_distribution() -> None:
     rng = np.random.default_rng(7)
     x = rng.uniform(-1, 1, 2_000_000)
     assert result.standard_uncertainty == pytest.approx(float(np.std(x**2)), rel=2e-3)  # numpy simulation
+
+
+@pytest.mark.parametrize("component, draw", [
+    ("{name: t, half_width: 1.0, distribution: trapezoidal, beta: 0.5}",
+     # JCGM 101 6.4.3.4: a trapezoid is the sum of two rectangular variates of half-widths (1 + b)/2, (1 - b)/2
+     lambda rng, m: rng.uniform(-0.75, 0.75, m) + rng.uniform(-0.25, 0.25, m)),
+    ("{name: t, half_width: 1.0, distribution: curvilinear_trapezoid, limit_spread: 0.2}",
+     # JCGM 101 6.4.4: a rectangular variate whose half-width is itself rectangular on [a - d, a + d]
+     lambda rng, m: rng.uniform(0.8, 1.2, m) * rng.uniform(-1, 1, m)),
+])
+def test_second_order_with_trapezoids_matches_a_simulation(component: str, draw) -> None:
+    # y = x^2 at x = 0: var(y) = E[x^4] - E[x^2]^2, checked against a numpy simulation of the stated distribution;
+    # before, --second-order with these shapes stopped with a KeyError traceback
+    text = ("ucalc: 1\ntitle: t\nmeasurand: {symbol: y}\nmodel: 'y = x**2'\n"
+            f"inputs:\n  x: {{value: 0, components: [{component}]}}\n")
+    result = propagate(load_budget_text(text), second_order=True)
+    x = draw(np.random.default_rng(11), 2_000_000)
+    assert result.standard_uncertainty == pytest.approx(float(np.std(x**2)), rel=3e-3)
 
 
 def test_second_order_gaussian_is_the_gum_note() -> None:

@@ -26,6 +26,9 @@ DIVISORS: dict[str, float] = {
 }
 
 
+FIXED_KURTOSIS = {"normal": 3.0, "t": 3.0, "rectangular": 9.0 / 5.0, "triangular": 12.0 / 5.0, "arcsine": 1.5}
+
+
 @dataclass(frozen=True)
 class Distribution:
     """A zero-centred distribution of deviations.
@@ -41,6 +44,26 @@ class Distribution:
     scale: float
     dof: float = math.inf
     param: float = 0.0
+
+    @property
+    def kurtosis(self) -> float:
+        """E[e^4] / u^4 of the distribution, for the second-order terms of the GUM.
+
+        Rectangular 9/5, triangular 12/5, arcsine 3/2 (moments of the densities of JCGM 101 6.4.2-6.4.6).
+        Trapezoid: the sum of two rectangular variates (6.4.3.4), whose fourth cumulants add:
+        3 - 0.3 ((1 + beta)^4 + (1 - beta)^4) / (1 + beta^2)^2. Curvilinear trapezoid: a rectangular variate of
+        half-width w, w itself rectangular on [a - d, a + d] (6.4.4), so E[e^4] = E[w^4]/5 and E[e^2] = E[w^2]/3:
+        9 (1 + 2 rho^2 + rho^4/5) / (5 (1 + rho^2/3)^2) with rho = d/a. Gaussian and t: 3 (for ``t`` the GUM's
+        convention of a Gaussian mean, JCGM 100 4.2.3).
+        """
+        if self.shape in FIXED_KURTOSIS:
+            return FIXED_KURTOSIS[self.shape]
+        b = self.param
+        if self.shape == "trapezoidal":
+            return 3.0 - 0.3 * ((1.0 + b) ** 4 + (1.0 - b) ** 4) / (1.0 + b * b) ** 2
+        if self.shape == "curvilinear_trapezoid":
+            return 9.0 * (1.0 + 2.0 * b * b + b**4 / 5.0) / (5.0 * (1.0 + b * b / 3.0) ** 2)
+        return 3.0
 
     @property
     def standard_uncertainty(self) -> float:

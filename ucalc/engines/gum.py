@@ -26,7 +26,6 @@ from ..results import ResultMethods
 # fourth moment E[e^4]/u^4 of a component's distribution (kurtosis): rectangular 9/5, triangular 12/5,
 # arcsine 3/2 (moments of the uniform, triangular and arcsine laws, JCGM 101 6.4.3-6.4.6); Gaussian 3. A Type A
 # component enters the GUM as a Gaussian with standard uncertainty s/sqrt(n) (JCGM 100 4.2, G.3), so 3 as well.
-KURTOSIS = {"normal": 3.0, "t": 3.0, "rectangular": 9.0 / 5.0, "triangular": 12.0 / 5.0, "arcsine": 1.5}
 
 
 @dataclass(frozen=True)
@@ -127,7 +126,7 @@ def correlation_pairs(budget: Budget, names: tuple[str, ...]) -> list[tuple[int,
     return sorted(pairs)
 
 
-def _blocks(m: int, pairs: list[tuple[int, int, float]]) -> list[list[int]]:
+def _blocks(m: int, pairs: list[tuple[int, int, Any]]) -> list[list[int]]:
     """Groups of inputs linked by non-zero correlations (connected components), each sorted."""
     parent = list(range(m))
 
@@ -172,41 +171,37 @@ def combine(terms: Any, dofs: Any, pairs: list[tuple[int, int, float]]) -> tuple
         return scale * np.sqrt(np.clip(variance, 0.0, None)), nu, first, cross, scale
 
 
-def effective_dof(s: Any, dofs: Any, pairs: list[tuple[int, int, float]], variance: Any) -> Any:
-    """Effective degrees of freedom with correlated inputs: nu_eff = u_c^4 / max(D_1, D_2), u_c^2 with the
-    correlation terms, t_i = c_i u_i, g_i = sum_j r_ij t_j (so that u_c^2 = sum_i t_i g_i):
+def effective_dof(s: Any, dofs: Any, pairs: list[tuple[int, int, Any]], variance: Any) -> Any:
+    """Effective degrees of freedom, correlated inputs included: nu_eff = u_c^4 / sum_B v_B^2 / nu_B.
 
-    - D_1 = sum_i t_i^4 / nu_i, JCGM 100 eq. (G.2b) over the terms one by one;
-    - D_2 = sum_B (sum_{i in B} |t_i g_i| / sqrt(nu_i))^2, B running over groups of inputs linked by non-zero
-      correlations. Welch-Satterthwaite rests on var(u_c^2) = 2 u_c^4 / nu_eff with a relative variance
-      1/(2 nu_i) of each u_i (JCGM 100 G.4.1, G.4.2, E.4.3); to first order input i contributes a standard
-      deviation 2 |t_i g_i| / sqrt(2 nu_i) to the estimate of u_c^2. Within a group the u_i may come from the same
-      data, so standard deviations add (the bound for any dependence between them, Minkowski's inequality);
-      independent groups add in variance.
+    B runs over groups of inputs linked by non-zero correlations (an uncorrelated input is a group of its own);
+    v_B = sum_{i in B} t_i g_i with t_i = c_i u_i and g_i = sum_j r_ij t_j is the group's part of u_c^2, its
+    correlation terms included. nu_B is nu_i for a single input, so that without correlations this is eq. (G.2b)
+    of JCGM 100 G.4.1 exactly; for a correlated group it is the smallest nu_i among its inputs with a non-zero term.
 
-    Without correlations D_1 = D_2 (eq. G.2b exactly). Two inputs carrying the same Type A estimate with r = 1 get
-    that estimate's dof (D_2 governs). Where correlations cancel variance, D_1 governs: first order understates how
-    much the estimate of a small difference of correlated terms varies, and the smaller nu_eff is kept.
+    Reasoning: correlated estimates in a lab budget usually share their data (two quantities carrying one mean, a
+    calibration's coefficients and predictions from one residual standard deviation). For estimates from the same
+    nu-dof sample, t^T S t / t^T Sigma t is chi^2_nu / nu for any t (a quadratic form in a Wishart matrix; from
+    memory), so the group's part of u_c^2 carries exactly nu dof whatever the correlations, and independent groups
+    combine as in G.2b. Taking the smallest nu of a group with unequal dofs is ucalc's own conservative convention.
     """
     import numpy as np
 
     m, n = s.shape
-    g = s.copy()
-    for i, j, r in pairs:
-        g[i] = g[i] + r * s[j]
-        g[j] = g[j] + r * s[i]
     with np.errstate(all="ignore"):
-        a = np.where(np.isfinite(dofs) & (s != 0.0), np.abs(s * g) / np.sqrt(dofs), 0.0)
-    with np.errstate(all="ignore"):
-        one_by_one = np.sum(np.where(np.isfinite(dofs) & (s != 0.0), s ** 4 / dofs, 0.0), axis=0)
-    denom = one_by_one
-    if pairs:
-        grouped = np.zeros(n)
-        for block in _blocks(m, pairs):
-            part = np.sum(a[block], axis=0)
-            grouped = grouped + part * part
-        denom = np.maximum(one_by_one, grouped)
-    with np.errstate(all="ignore"):
+        if pairs:
+            g = s.copy()
+            for i, j, r in pairs:
+                g[i] = g[i] + r * s[j]
+                g[j] = g[j] + r * s[i]
+            denom = np.zeros(n)
+            for block in _blocks(m, pairs):
+                live = s[block] != 0.0
+                part = np.sum(s[block] * g[block], axis=0)
+                nu_b = np.min(np.where(live, dofs[block], np.inf), axis=0)
+                denom = denom + np.where(np.isfinite(nu_b), part * part / nu_b, 0.0)
+        else:
+            denom = np.sum(np.where(np.isfinite(dofs) & (s != 0.0), s**4 / dofs, 0.0), axis=0)
         nu = np.where((denom > 0) & (variance > 0), variance * variance / np.where(denom > 0, denom, 1.0), np.inf)
     single = _single_term(s, dofs)
     return np.where(np.isnan(single), nu, single)
@@ -362,10 +357,9 @@ def propagate(budget: Budget, *, second_order: bool = False) -> GumResult:
     contributions.sort(key=lambda row: (-row.contribution, row.input))
     if cross:
         change = "raise" if cross > 0 else "lower"
-        why = ("inputs that may share one estimate get no more dof than it has" if cross > 0 else
-               "where correlations cancel variance the smaller, conservative dof is kept")
         notes.append(f"correlation terms {change} u_c^2 to {ratio:.0%} of the uncorrelated sum; effective dof by "
-                     f"Welch-Satterthwaite generalised to correlated inputs (docs/budget-format.md): {why}")
+                     "Welch-Satterthwaite over groups of correlated inputs, each group counted as one source with the "
+                     "smallest dof of its inputs (ucalc's rule, docs/budget-format.md)")
     if second:
         notes.append(f"second-order terms add {second / (uc * uc):.1%} of u_c^2")
     return GumResult(
@@ -381,7 +375,7 @@ def fourth_moment(budget: Budget, name: str) -> float:
     (fourth cumulants add for independent summands)."""
     q = budget.quantities[name]
     u = q.standard_uncertainty
-    excess = sum((KURTOSIS[c.distribution.shape] - 3.0) * c.standard_uncertainty ** 4 for c in q.components)
+    excess = sum((c.distribution.kurtosis - 3.0) * c.standard_uncertainty ** 4 for c in q.components)
     return 3.0 * u ** 4 + excess
 
 

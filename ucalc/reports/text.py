@@ -135,7 +135,9 @@ def render_gum(console: Console, budget: Budget, result: GumResult, show_result:
     else:  # the input, its estimate and u(x_i); then what it contributes to u_c
         console.print(_table(columns[:5], [r[:5] for r in rows]))
         console.print(_table([columns[0], *columns[5:]], [[r[0], *r[5:]] for r in rows]))
-    console.print(f"share of u_c² = (u_i(y)/u_c)²; u_c = {fig(result.standard_uncertainty)}{' ' + mu if mu else ''}, "
+    legend = ("share of u_c²: correlated inputs share the variance they carry together (docs/budget-format.md)"
+              if result.correlation_variance else "share of u_c² = (u_i(y)/u_c)²")
+    console.print(f"{legend}; u_c = {fig(result.standard_uncertainty)}{' ' + mu if mu else ''}, "
                   f"{dof_equation('ν_eff', result.effective_dof)}"
                   + (", second-order terms included" if result.second_order else ""))
     gum_line = escape(result_line(result.measurand, result.value, mu, result.expanded_uncertainty,
