@@ -139,6 +139,18 @@ def test_failed_validation_names_the_rectangular_input() -> None:
     assert stated.method == "monte-carlo" and "input 'X4' is rectangular" in stated.reason
 
 
+def test_few_dof_component_inside_a_many_dof_input_is_named() -> None:
+    # a mean of 4 results (a t with 3 dof, JCGM 101 6.4.9) beside a larger Gaussian term in one input: the input's
+    # W-S dof is high, but the t_3 component's heavy tails still widen the interval; its own share of u_c^2 here is
+    # 0.2 / (1 + 0.2) = 17 %, so it is named (before, only components with a quarter of their input's variance were)
+    text = ("ucalc: 1\ntitle: t\nmeasurand: {symbol: Y}\nmodel: 'Y = X'\ninputs:\n"
+            "  X: {value: 10, components: [{name: ref, standard: 1}, "
+            "{name: mean, standard: 0.4472135955, dof: 3}]}\n")
+    b = load_budget_text(text)
+    assert montecarlo.departures(b, propagate(b)) == (
+        "input 'X' has a component that is a t with 3 degrees of freedom (17% of u_c²)",)
+
+
 def test_non_linearity_is_named() -> None:
     # Y = X^2 at X = 0 (JCGM 101 9.3-like): first-order u_c is 0, the curvature term is (1/2)*2*u^2 = 1
     b = load_budget_text("ucalc: 1\ntitle: t\nmeasurand: {symbol: Y}\nmodel: 'Y = X ** 2'\ncoverage: {k: 2}\n"

@@ -539,8 +539,8 @@ def validate(gum: GumResult, mc: MonteCarloResult, digits: int = 2, budget: Budg
 def departures(budget: Budget, gum: GumResult) -> tuple[str, ...]:
     """What makes the GUM's Gaussian (or t) output an approximation here (JCGM 101 5.7, 8.1).
 
-    Inputs with at least 5 % of u_c^2 whose distribution is far from Gaussian (a t with few dof, rectangular,
-    arcsine, trapezoidal), inputs whose curvature term (1/2)|d2f/dx2| u^2 and pairs whose cross term
+    Inputs with a component of at least 5 % of u_c^2 whose distribution is far from Gaussian (a t with few dof,
+    rectangular, arcsine, trapezoidal), inputs whose curvature term (1/2)|d2f/dx2| u^2 and pairs whose cross term
     |d2f/dxi dxj| u_i u_j exceeds 2 % of u_c (the second-order terms of JCGM 100 5.1.2 note).
     """
     shares = {c.input: c.variance_share for c in gum.contributions}
@@ -553,15 +553,16 @@ def departures(budget: Budget, gum: GumResult) -> tuple[str, ...]:
         shapes = []
         for c in q.components:
             d = c.distribution
-            if total == 0 or (c.standard_uncertainty / total) ** 2 < 0.25:
-                continue
+            share = shares[name] * (c.standard_uncertainty / total) ** 2 if total else 0.0
+            if share < NOTABLE_SHARE:
+                continue  # the component's own share of u_c^2: a few-dof t inside a many-dof input still counts
             if d.shape == "t" and d.dof < FAR_FROM_GAUSSIAN_DOF:
-                shapes.append(f"a t with {d.dof:g} degrees of freedom")
+                shapes.append(f"a t with {d.dof:g} degrees of freedom ({share:.0%} of u_c²)")
             elif d.shape not in ("normal", "t", "triangular"):
-                shapes.append(f"{d.shape.replace('_', ' ')}")
+                shapes.append(f"{d.shape.replace('_', ' ')} ({share:.0%} of u_c²)")
         if shapes:
             verb = "is" if len(q.components) == 1 else "has a component that is"
-            out.append(f"input '{name}' {verb} {' and '.join(shapes)} ({shares[name]:.0%} of u_c²)")
+            out.append(f"input '{name}' {verb} {' and '.join(shapes)}")
     env = {n: budget.quantities[n].value for n in budget.model.inputs}
     uc = gum.standard_uncertainty
     uncertain = [n for n in budget.model.inputs if budget.quantities[n].standard_uncertainty > 0]
