@@ -207,7 +207,7 @@ def render_evaluation(console: Console, budget: Budget, gum: GumResult, mc: Mont
         from rich.markup import escape
 
         stated = state(budget, gum, mc)
-        console.print(f"[bold]Result[/bold] ({stated.method_name}): " + escape(stated.reason))
+        console.print(f"[bold]Result[/bold] by {stated.method_name}: " + escape(stated.reason))
         console.print("[bold]" + escape(line(stated, _unit(gum.unit))) + "[/bold]")
     if budget.limits is not None:
         from .qc import render_limits
